@@ -1,0 +1,104 @@
+// Offline analysis of a stereo recording of the jig (channel A = node A, channel B =
+// node B): finds where the excitation is on, which tones it holds and at exactly what
+// frequency, demodulates both channels block by block, drops blocks that have not
+// settled, and turns the channel ratio into the part's impedance with its uncertainty.
+//
+// Steps and why:
+//  1. clipping check on both channels (a clipped tone has the wrong amplitude);
+//  2. active region from channel A's level (silence before and after is common);
+//  3. tones: given, or found in a Blackman-Harris spectrum, then refined by a joint
+//     IEEE 1057-style sine fit (recordings from other devices are rarely bin-exact);
+//  4. block length: whole periods of every tone if such a block exists (rectangular
+//     window, exact), else a Hann window over >= 8 periods of the lowest tone;
+//  5. phase drift across blocks: a frequency error is tracked (per-block frequency from
+//     a quadratic phase model); wander that cannot be followed is refused;
+//  6. settling: leading/trailing blocks whose ratio sits away from the steady value are
+//     dropped, and a steady run that still trends is flagged not settled;
+//  7. Z per block through solve_bridge(); Type A from the block spread, Type B from the
+//     configured tolerances by sensitivity (finite differences of the bridge solution).
+#pragma once
+
+#include <complex>
+#include <cstddef>
+#include <optional>
+#include <span>
+#include <stdexcept>
+#include <string>
+#include <vector>
+
+#include "dsp/block_stats.hpp"
+#include "dsp/bridge.hpp"
+#include "dsp/impedance.hpp"
+#include "dsp/phase_track.hpp"
+#include "dsp/uncertainty.hpp"
+#include "dsp/window.hpp"
+
+namespace tb::dsp {
+
+struct AnalysisConfig {
+  double sample_rate_hz = 48000;  ///< > 0
+  BridgeConfig bridge;            ///< layout, Rref, channel match, input impedance
+  double rref_tolerance_rel =
+      0.001;  ///< Rref tolerance half-width (rectangular), e.g. 0.001 = 0.1 %
+  double input_impedance_u_rel = 0.05;  ///< standard uncertainty of the input impedance, relative
+  double channel_gain_u_rel = 0;       ///< standard uncertainty of the channel-match gain, relative
+  double channel_phase_u_rad = 0;      ///< standard uncertainty of the channel-match phase
+  double volts_per_fs = 0;             ///< peak volts at full scale; 0 = level unknown
+  std::vector<double> tones_hz;        ///< analyse these (approximate) frequencies; empty = find
+  double min_tone_db = -40;            ///< weakest tone kept, relative to the strongest
+  std::optional<Window> window;        ///< nullopt: rectangular if coherent, else Hann
+  std::size_t target_blocks = 16;      ///< blocks to aim for (more = better Type A, shorter blocks)
+  std::optional<PartKind> force_kind;  ///< report as this kind instead of detecting it
+};
+
+struct ToneReading {
+  double freq_hz = 0;     ///< measured frequency of the tone (after tracking)
+  bool coherent = false;  ///< whole periods per block (rectangular window exact)
+  Window window = Window::rectangular;
+  std::size_t block_len = 0;
+  std::size_t blocks_total = 0;
+  std::size_t blocks_used = 0;  ///< after start-up and stop transients are dropped
+  SettleResult settle;
+  PhaseDrift phase;            ///< drift found on channel A (already tracked out)
+  std::complex<double> ratio;  ///< mean V_B / V_A of the used blocks (uncorrected)
+  UncertainComplex z;          ///< impedance with its Type A covariance and Type B terms
+  ImpedanceValues values;
+  PartKind kind = PartKind::resistor;
+  bool kind_forced = false;
+  ScalarUncertainty u_r, u_x, u_mag, u_theta_deg, u_cs, u_cp, u_ls, u_lp, u_rp, u_d, u_q;
+  bool r_below_resolution = false;    ///< Rs not distinguishable from 0 (|Rs| <= its U)
+  bool x_below_resolution = false;    ///< Xs not distinguishable from 0
+  double level_a = 0, level_b = 0;    ///< peak amplitudes, full-scale units
+  double snr_a_db = 0, snr_b_db = 0;  ///< per block, from the block spread
+  double v_part_rms = 0;  ///< test voltage across the part (0 when the level is unknown)
+  double i_part_rms = 0;  ///< test current through it
+};
+
+struct AnalysisResult {
+  double sample_rate_hz = 0;
+  double duration_s = 0;
+  std::size_t active_begin = 0, active_end = 0;  ///< excitation found on, samples
+  std::size_t harmonics_dropped = 0;
+  std::vector<ToneReading> readings;  ///< ascending frequency
+  std::vector<std::string> notes;     ///< observations across tones (resonance, ...)
+};
+
+/// Failure of the whole analysis. id is stable (listed in docs/errors.md); message says
+/// what happened, hint what to do.
+class AnalysisError : public std::runtime_error {
+ public:
+  AnalysisError(std::string id, const std::string& message, std::string hint)
+      : std::runtime_error(message), id_(std::move(id)), hint_(std::move(hint)) {}
+  const std::string& id() const { return id_; }
+  const std::string& hint() const { return hint_; }
+
+ private:
+  std::string id_, hint_;
+};
+
+/// Analyses equal-length channels a (node A) and b (node B), samples in full-scale units.
+/// Throws AnalysisError (ids recording.*, analysis.*) or std::invalid_argument for a bad config.
+AnalysisResult analyze_recording(std::span<const double> a, std::span<const double> b,
+                                 const AnalysisConfig& config);
+
+}  // namespace tb::dsp
