@@ -43,7 +43,7 @@ TEST_CASE("lock-in recovers a coherent tone's complex amplitude exactly", "[lock
   CHECK(lockin.result().empty());
 }
 
-TEST_CASE("lock-in equals one DFT bin: A = 2|X[k]|/M", "[lockin]") {
+TEST_CASE("lock-in equals one DFT bin, A = 2|X(k)|/M", "[lockin]") {
   // Source: shared references "Signals": the lock-in over whole periods equals one DFT
   // bin; the FFT here is FFTW, an independent implementation.
   const double fs = 48000;
