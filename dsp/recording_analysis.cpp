@@ -188,57 +188,54 @@ AnalysisResult analyze_recording(std::span<const double> a, std::span<const doub
         "record at least 0.2 s of steady tone");
   }
 
-  // Tones: found or given, then refined.
-  std::vector<double> freqs;
-  double floor_per_sample = 0;  // noise floor scaled to a one-sample transform
+  // Tones: every tone on channel A is found and refined in one joint fit, so no tone
+  // biases another's frequency; named frequencies only select which ones are reported.
+  // The block length is chosen for all of them, so an unreported tone cannot leak into a
+  // reported one through a window that is coherent for the latter only.
+  std::vector<double> all_freqs;  // every excitation tone present
+  std::vector<double> freqs;      // the ones to report
+  double floor_per_sample = 0;    // noise floor scaled to a one-sample transform
   {
     ToneSearchConfig search{.sample_rate_hz = fs, .min_level_db = config.min_tone_db};
     const auto found = detect_tones(seg_a, search);
     result.harmonics_dropped = found.harmonics_dropped;
     floor_per_sample =
         found.floor * std::sqrt(static_cast<double>(std::min(span_len, search.max_fft)));
-    if (config.tones_hz.empty()) {
-      for (const auto& t : found.tones)
-        freqs.push_back(t.freq_hz);
-      if (freqs.empty()) {
-        throw AnalysisError("recording.no_tone", "no excitation tone found on channel 1 (node A)",
-                            "the recording holds only noise: check the generator level, or name "
-                            "the frequency with --freq");
-      }
-    } else {
-      // Named frequencies: snap each to the nearest detected peak within a few bins.
-      for (double want : config.tones_hz) {
-        if (!(want > 0 && want < 0.5 * fs)) {
-          throw AnalysisError("analysis.bad_frequency",
-                              fmt(want) + " Hz is outside 0 < f < " + fmt(0.5 * fs) + " Hz",
-                              "name a frequency below half the sample rate");
-        }
-        double best = want;
-        double best_d = 4 * found.bin_hz;
-        for (const auto& t : found.tones) {
-          if (std::abs(t.freq_hz - want) < best_d) {
-            best_d = std::abs(t.freq_hz - want);
-            best = t.freq_hz;
-          }
-        }
-        if (best == want) {
-          throw AnalysisError(
-              "recording.no_tone", "no tone near " + fmt(want) + " Hz on channel 1",
-              "check the frequency, or leave out --freq to find tones automatically");
-        }
-        freqs.push_back(best);
-      }
+    for (const auto& t : found.tones)
+      all_freqs.push_back(t.freq_hz);
+    if (all_freqs.empty()) {
+      throw AnalysisError("recording.no_tone", "no excitation tone found on channel 1 (node A)",
+                          "the recording holds only noise: check the generator level and that "
+                          "channel 1 is wired to node A");
     }
-    if (freqs.size() <= 12) {
-      const auto fit = fit_sines(seg_a, freqs, {.sample_rate_hz = fs});
+    if (all_freqs.size() <= 12) {
+      const auto fit = fit_sines(seg_a, all_freqs, {.sample_rate_hz = fs});
       const double guard = 2 * found.bin_hz;
-      for (std::size_t k = 0; k < freqs.size(); ++k) {
-        if (fit.converged && std::abs(fit.freq_hz[k] - freqs[k]) < guard) freqs[k] = fit.freq_hz[k];
+      for (std::size_t k = 0; k < all_freqs.size(); ++k) {
+        if (fit.converged && std::abs(fit.freq_hz[k] - all_freqs[k]) < guard)
+          all_freqs[k] = fit.freq_hz[k];
       }
     }
+    for (double want : config.tones_hz) {
+      if (!(want > 0 && want < 0.5 * fs)) {
+        throw AnalysisError("analysis.bad_frequency",
+                            fmt(want) + " Hz is outside 0 < f < " + fmt(0.5 * fs) + " Hz",
+                            "name a frequency below half the sample rate");
+      }
+      const auto nearest = std::min_element(
+          all_freqs.begin(), all_freqs.end(),
+          [&](double p, double q) { return std::abs(p - want) < std::abs(q - want); });
+      if (std::abs(*nearest - want) > 4 * found.bin_hz) {
+        throw AnalysisError("recording.no_tone", "no tone near " + fmt(want) + " Hz on channel 1",
+                            "check the frequency, lower --min-tone-db for a weak tone, or leave "
+                            "out --freq to find tones automatically");
+      }
+      if (std::find(freqs.begin(), freqs.end(), *nearest) == freqs.end()) freqs.push_back(*nearest);
+    }
+    if (config.tones_hz.empty()) freqs = all_freqs;
   }
 
-  const BlockLayout layout = choose_blocks(freqs, fs, span_len, config.target_blocks);
+  const BlockLayout layout = choose_blocks(all_freqs, fs, span_len, config.target_blocks);
   if (layout.count < 2) {
     const double need = 2.0 * static_cast<double>(layout.len) / fs;
     throw AnalysisError("recording.too_short",
@@ -292,6 +289,15 @@ AnalysisResult analyze_recording(std::span<const double> a, std::span<const doub
     std::vector<cplx> ratio(blocks.a.size());
     for (std::size_t i = 0; i < ratio.size(); ++i)
       ratio[i] = blocks.b[i] / blocks.a[i];
+    // For any passive part |V_B/V_A| < 1 in both layouts (|Z + Rref| > |Z| when Re Z >= 0),
+    // so node B reading well above node A means the inputs are the other way round.
+    if (std::abs(mean_of(ratio)) > 1.05) {
+      throw AnalysisError("analysis.channels_swapped",
+                          "at " + fmt(freq, 6) + " Hz channel 2 reads " +
+                              fmt(std::abs(mean_of(ratio)), 3) +
+                              " times channel 1, which no passive part can do",
+                          "node A seems to be on channel 2: pass --swap (or check the wiring)");
+    }
     r.settle = check_settled(ratio, {});
     const std::size_t first = r.settle.first;
     const std::size_t last = std::max(r.settle.last, first);

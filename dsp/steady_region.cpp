@@ -22,11 +22,16 @@ ActiveRegion find_active_region(std::span<const double> a, const ActiveRegionCon
     return out;
   }
   std::vector<double> rms(frames);
+  // AC level of each frame (its mean removed): a DC offset of the card, or a DC step
+  // before the tone starts, is not excitation.
   for (std::size_t f = 0; f < frames; ++f) {
-    double ss = 0;
-    for (std::size_t i = f * frame; i < (f + 1) * frame; ++i)
+    double sum = 0, ss = 0;
+    for (std::size_t i = f * frame; i < (f + 1) * frame; ++i) {
+      sum += a[i];
       ss += a[i] * a[i];
-    rms[f] = std::sqrt(ss / static_cast<double>(frame));
+    }
+    const double mean = sum / static_cast<double>(frame);
+    rms[f] = std::sqrt(std::max(0.0, ss / static_cast<double>(frame) - mean * mean));
   }
   // The loud level is a high percentile rather than the maximum, so one click or the
   // start-up surge does not set it.

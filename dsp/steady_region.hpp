@@ -1,6 +1,6 @@
 // Where the excitation is on: the recording's active part, found from the short-term
-// level of channel A (the generator node), with leading and trailing silence and the
-// partial frames at the edges removed. Start-up transients inside the active part are
+// AC level of channel A (the generator node; DC offsets ignored), with leading and trailing silence
+// and the partial frames at the edges removed. Start-up transients inside the active part are
 // removed later, block by block, by check_settled() on the channel ratio.
 #pragma once
 

@@ -73,3 +73,14 @@ TEST_CASE("clipping is found only where peaks are flat at full scale", "[steady_
     x[i] = 0.999 * std::sin(0.05 * static_cast<double>(i));
   CHECK(detect_clipping(x).clipped_runs == 0);
 }
+
+TEST_CASE("a DC offset before the tone does not count as activity", "[steady_region]") {
+  // A card's DC offset, or a DC step before the generator starts, is not excitation.
+  const double fs = 48000;
+  std::vector<double> x(48000, 0.05);
+  for (std::size_t i = 24000; i < x.size(); ++i)
+    x[i] += 0.3 * std::sin(0.1 * static_cast<double>(i));
+  const auto r = find_active_region(x, {.sample_rate_hz = fs});
+  REQUIRE(r.found);
+  CHECK(r.begin >= 24000);
+}
