@@ -40,13 +40,15 @@ struct BridgeConfig {
 /// Z of an ideal bridge from the raw ratio r = V_B/V_A (no corrections).
 /// Example: impedance_from_ratio(Layout::part_low, 1000, 0.5) == 1000.
 /// Throws std::domain_error when the ratio makes the bridge singular (r == 1 part_low, r == 0
-/// part_high).
+/// part_high) or Rref is zero or infinite.
 cplx impedance_from_ratio(Layout layout, cplx rref_ohm, cplx ratio_b_over_a);
 
-/// Inverse of impedance_from_ratio: the ratio an ideal bridge shows for impedance z.
+/// Inverse of impedance_from_ratio: the ratio an ideal bridge shows for impedance z. An infinite
+/// z gives 1 (part_low) or 0 (part_high); z == -Rref throws std::domain_error.
 cplx ratio_from_impedance(Layout layout, cplx rref_ohm, cplx z_ohm);
 
-/// Z with channel match and input loading corrected. Throws std::domain_error when singular.
+/// Z with channel match and input loading corrected. Throws std::domain_error when singular:
+/// V_A == 0, H == 0, Zin == 0, or (part_low) a reading equal to Zin (the part is open).
 cplx solve_bridge(const BridgeConfig& config, cplx v_a, cplx v_b);
 
 /// Parallel combination a || b (ohm). Either may be infinite (returns the other).

@@ -1,6 +1,7 @@
 // Fixture compensation with the linear two-port fixture model
 // (Torrents & Pallas-Areny, IEEE Trans. Instrum. Meas. 54(5), 2005).
-// All impedances complex, in ohm, at one frequency.
+// All impedances complex, in ohm, at one frequency. Degenerate standards throw
+// std::domain_error: open == short, load == short, open == load, or a reading equal to the open.
 #pragma once
 
 #include <complex>

@@ -1,4 +1,6 @@
 // Student's t distribution: the CDF and its two-sided quantile, for coverage factors.
+// nu = +infinity gives the normal distribution. nu <= 0, NaN, or p outside (0, 1) throw
+// std::domain_error.
 #pragma once
 
 namespace tb::dsp {

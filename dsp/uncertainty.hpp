@@ -36,11 +36,11 @@ struct UncertainComplex {
   std::vector<TypeBTerm> type_b;
 };
 
-/// Mean and Type A covariance of the mean of n >= 1 complex samples.
+/// Mean and Type A covariance of the mean of n >= 1 complex samples (none: std::invalid_argument).
 /// With n == 1 the covariance is zero and dof_a is 0.
 UncertainComplex mean_with_type_a(std::span<const std::complex<double>> samples);
 
-/// Rectangular distribution of half-width a: u = a / sqrt(3) (JCGM 100 4.3.7).
+/// Rectangular distribution of half-width a >= 0: u = a / sqrt(3) (JCGM 100 4.3.7).
 double rectangular_u(double half_width);
 
 struct ScalarUncertainty {
@@ -57,7 +57,9 @@ struct ScalarUncertainty {
 ScalarUncertainty propagate(const UncertainComplex& z, double y, double dy_dre, double dy_dim);
 
 /// Same, with the gradient taken numerically by central differences of f
-/// (step relative to |Z|). Use for the derived quantities of impedance.hpp.
+/// (step relative to |Z|). Use for the derived quantities of impedance.hpp. For values that
+/// can sit near zero pass the signed form (R/|X| for D, not |R|/|X|), so the propagation
+/// is linear rather than through the kink of the absolute value.
 ScalarUncertainty propagate(const UncertainComplex& z,
                             const std::function<double(std::complex<double>)>& f);
 

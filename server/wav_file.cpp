@@ -17,7 +17,11 @@ struct Closer {
 using SndFile = std::unique_ptr<SNDFILE, Closer>;
 
 std::string describe(int format) {
-  std::string out = (format & SF_FORMAT_TYPEMASK) == SF_FORMAT_WAV ? "WAV" : "audio";
+  const int type = format & SF_FORMAT_TYPEMASK;
+  std::string out = type == SF_FORMAT_WAV || type == SF_FORMAT_WAVEX ? "WAV"
+                    : type == SF_FORMAT_FLAC                         ? "FLAC"
+                    : type == SF_FORMAT_AIFF                         ? "AIFF"
+                                                                     : "audio";
   switch (format & SF_FORMAT_SUBMASK) {
     case SF_FORMAT_PCM_16:
       return out + " PCM 16-bit";
