@@ -209,7 +209,11 @@ AnalysisResult analyze_recording(std::span<const double> a, std::span<const doub
                           "channel 1 is wired to node A");
     }
     if (all_freqs.size() <= 12) {
-      const auto fit = fit_sines(seg_a, all_freqs, {.sample_rate_hz = fs});
+      // The fit leaves out the edges of the active part (a fade-in or fade-out there would
+      // bias the frequency) when enough remains: 10 % or 50 ms at each end.
+      const auto edge = std::max<std::size_t>(span_len / 10, static_cast<std::size_t>(0.05 * fs));
+      const auto fit_seg = 4 * edge < span_len ? seg_a.subspan(edge, span_len - 2 * edge) : seg_a;
+      const auto fit = fit_sines(fit_seg, all_freqs, {.sample_rate_hz = fs});
       const double guard = 2 * found.bin_hz;
       for (std::size_t k = 0; k < all_freqs.size(); ++k) {
         if (fit.converged && std::abs(fit.freq_hz[k] - all_freqs[k]) < guard)
@@ -263,7 +267,19 @@ AnalysisResult analyze_recording(std::span<const double> a, std::span<const doub
     // of the last; two passes normally suffice, the third only confirms.
     for (int pass = 0; pass < 3; ++pass) {
       blocks = demodulate_blocks(a, b, region.begin, layout, window, fs, freq, slope, t_mid);
-      r.phase = measure_phase_drift(blocks.a, blocks.starts, layout.len, fs);
+      // Only the settled blocks tell the frequency: fades and start-up transients do not.
+      std::vector<cplx> ratio_now(blocks.a.size());
+      for (std::size_t i = 0; i < ratio_now.size(); ++i)
+        ratio_now[i] = blocks.b[i] / blocks.a[i];
+      const auto steady = check_settled(ratio_now, {});
+      std::size_t s_first = steady.first, s_count = steady.last - steady.first;
+      if (s_count < 3) {
+        s_first = 0;
+        s_count = blocks.a.size();
+      }
+      r.phase = measure_phase_drift(
+          std::span<const cplx>(blocks.a).subspan(s_first, s_count),
+          std::span<const std::size_t>(blocks.starts).subspan(s_first, s_count), layout.len, fs);
       const double cycles_off = std::abs(r.phase.freq_error_hz) * record_s +
                                 std::abs(r.phase.freq_slope_hz_per_s) * record_s * record_s;
       if (cycles_off < 1e-4) break;
@@ -290,11 +306,12 @@ AnalysisResult analyze_recording(std::span<const double> a, std::span<const doub
     for (std::size_t i = 0; i < ratio.size(); ++i)
       ratio[i] = blocks.b[i] / blocks.a[i];
     // For any passive part |V_B/V_A| < 1 in both layouts (|Z + Rref| > |Z| when Re Z >= 0),
-    // so node B reading well above node A means the inputs are the other way round.
-    if (std::abs(mean_of(ratio)) > 1.05) {
+    // so node B reading well above node A means the inputs are the other way round. The
+    // margin leaves room for an uncalibrated gain mismatch (two inputs +-0.3 dB each).
+    const double corrected = std::abs(mean_of(ratio) / config.bridge.channel_match);
+    if (config.check_swapped && corrected > 1.10) {
       throw AnalysisError("analysis.channels_swapped",
-                          "at " + fmt(freq, 6) + " Hz channel 2 reads " +
-                              fmt(std::abs(mean_of(ratio)), 3) +
+                          "at " + fmt(freq, 6) + " Hz channel 2 reads " + fmt(corrected, 3) +
                               " times channel 1, which no passive part can do",
                           "node A seems to be on channel 2: pass --swap (or check the wiring)");
     }
@@ -325,6 +342,12 @@ AnalysisResult analyze_recording(std::span<const double> a, std::span<const doub
     }
     r.z = mean_with_type_a(z_blocks);
     r.ratio = mean_of(used(ratio));
+    {
+      const auto spread = block_spread(used(ratio));
+      r.ratio_u_rel = spread.n > 1 ? spread.spread / std::sqrt(static_cast<double>(spread.n)) /
+                                         std::abs(spread.mean)
+                                   : 0.0;
+    }
 
     // Type B inputs, by sensitivity of the bridge solution at the mean ratio.
     const BridgeConfig& bc = config.bridge;

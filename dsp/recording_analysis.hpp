@@ -49,6 +49,9 @@ struct AnalysisConfig {
   std::optional<Window> window;        ///< nullopt: rectangular if coherent, else Hann
   std::size_t target_blocks = 16;      ///< blocks to aim for (more = better Type A, shorter blocks)
   std::optional<PartKind> force_kind;  ///< report as this kind instead of detecting it
+  /// Refuse |V_B/V_A| (after the channel match) above 1.10 as swapped inputs. Off for the
+  /// channel-match step itself, where both inputs read node A and the ratio is near 1.
+  bool check_swapped = true;
 };
 
 struct ToneReading {
@@ -61,6 +64,7 @@ struct ToneReading {
   SettleResult settle;
   PhaseDrift phase;            ///< drift found on channel A (already tracked out)
   std::complex<double> ratio;  ///< mean V_B / V_A of the used blocks (uncorrected)
+  double ratio_u_rel = 0;      ///< standard uncertainty of that mean, relative (Type A)
   UncertainComplex z;          ///< impedance with its Type A covariance and Type B terms
   ImpedanceValues values;
   PartKind kind = PartKind::resistor;
