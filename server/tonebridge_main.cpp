@@ -4,13 +4,15 @@
 #include <vector>
 
 #include "server/analyze_command.hpp"
+#include "server/measure_command.hpp"
 
 namespace {
 
 constexpr const char* kHelp =
     "tonebridge: impedance of audio parts through a sound card and a reference resistor.\n\n"
     "commands:\n"
-    "  analyze RECORDING.wav --rref OHMS   impedance, ESR, D/Q at each tone of a jig recording\n\n"
+    "  analyze RECORDING.wav --rref OHMS   impedance, ESR, D/Q at each tone of a jig recording\n"
+    "  measure --part TEXT                 one reading on the simulated bench\n\n"
     "run `tonebridge COMMAND --help` for a command's options.\n"
     "SAFETY: discharge capacitors before connecting them; never connect the jig to\n"
     "powered equipment. See docs/safety.md.\n";
@@ -26,6 +28,7 @@ int main(int argc, char** argv) {
   const std::string command = args[0];
   args.erase(args.begin());
   if (command == "analyze") return tb::run_analyze(args, std::cout, std::cerr);
+  if (command == "measure") return tb::run_measure(args, std::cout, std::cerr);
   std::cerr << "tonebridge: error [cli.unknown_command]: no command '" << command
             << "'. Run `tonebridge --help` for the commands\n";
   return 2;

@@ -1,0 +1,79 @@
+#include "dsp/jig_model.hpp"
+
+#include <stdexcept>
+
+namespace tb::dsp {
+
+namespace {
+
+void add(Netlist& n, ElementKind kind, const std::string& name, const std::string& p,
+         const std::string& m, double value) {
+  Element e;
+  e.kind = kind;
+  e.name = name;
+  e.node_p = p;
+  e.node_n = m;
+  e.value = value;
+  n.elements.push_back(e);
+}
+
+// A series resistance that may be zero: a zero-ohm resistor would make the MNA matrix
+// singular, so it becomes a 1 micro-ohm link (far below anything the bench resolves).
+double link(double ohm) {
+  return ohm > 1e-6 ? ohm : 1e-6;
+}
+
+}  // namespace
+
+JigNetlist build_jig(const JigSetup& setup, const Netlist& part, const CardFaults& card) {
+  if (!(setup.rref_ohm > 0)) throw std::invalid_argument("jig: Rref must be > 0 ohm");
+  bool has_p = false, has_n = false;
+  for (const auto& e : part.elements) {
+    for (const auto* node : {&e.node_p, &e.node_n}) {
+      has_p |= *node == "p";
+      has_n |= *node == "n";
+    }
+  }
+  if (!has_p || !has_n) throw std::invalid_argument("jig: the part needs terminals p and n");
+
+  JigNetlist jig;
+  Netlist& n = jig.netlist;
+  add(n, ElementKind::voltage_source, jig.source, "dac", "0", 0.0);
+  add(n, ElementKind::resistor, "Rout", "dac", "o", link(card.out_resistance_ohm));
+  if (card.out_coupling_f > 0) {
+    add(n, ElementKind::capacitor, "Cout", "o", "a", card.out_coupling_f);
+  } else {
+    add(n, ElementKind::resistor, "Cout_link", "o", "a", link(0));
+  }
+  std::string hot, cold;
+  if (setup.layout == Layout::part_low) {
+    add(n, ElementKind::resistor, "Rref", "a", "b", setup.rref_ohm);
+    hot = "b";
+    cold = "0";
+  } else {
+    add(n, ElementKind::resistor, "Rref", "b", "0", setup.rref_ohm);
+    hot = "a";
+    cold = "b";
+  }
+  add(n, ElementKind::resistor, "Rlead_hot", hot, "part_p", link(setup.lead_hot_ohm));
+  add(n, ElementKind::resistor, "Rlead_cold", "part_n", cold, link(setup.lead_cold_ohm));
+  for (Element e : part.elements) {
+    e.name = "part_" + e.name;
+    for (auto* node : {&e.node_p, &e.node_n}) {
+      if (*node != "0") *node = "part_" + *node;
+    }
+    n.elements.push_back(e);
+  }
+  jig.node_in_b = setup.inputs_on_node_a ? "a" : "b";
+  const std::string reads[2] = {jig.node_in_a, jig.node_in_b};
+  for (int ch = 0; ch < 2; ++ch) {
+    const std::string tag = ch == 0 ? "A" : "B";
+    if (card.in_resistance_ohm[ch] > 0)
+      add(n, ElementKind::resistor, "Rin" + tag, reads[ch], "0", card.in_resistance_ohm[ch]);
+    if (card.in_capacitance_f[ch] > 0)
+      add(n, ElementKind::capacitor, "Cin" + tag, reads[ch], "0", card.in_capacitance_f[ch]);
+  }
+  return jig;
+}
+
+}  // namespace tb::dsp
