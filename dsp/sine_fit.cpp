@@ -4,6 +4,7 @@
 #include <cmath>
 #include <numbers>
 #include <stdexcept>
+#include <vector>
 
 namespace tb::dsp {
 
@@ -35,6 +36,7 @@ SineFitResult fit_sines(std::span<const double> x, std::span<const double> freq_
   constexpr Eigen::Index chunk = 512;
   Eigen::MatrixXd jac(chunk, p);
   Eigen::VectorXd rhs_chunk(chunk);
+  std::vector<std::complex<double>> phasor(k_tones), advance(k_tones);
   // Iteration 0 is the linear three-parameter fit at the guessed frequencies (frequency
   // columns left out); later iterations are the four-parameter Gauss-Newton steps.
   for (int iter = 0; iter <= config.max_iterations; ++iter) {
@@ -44,11 +46,19 @@ SineFitResult fit_sines(std::span<const double> x, std::span<const double> freq_
     Eigen::VectorXd jtr = Eigen::VectorXd::Zero(cols);
     for (std::size_t start = 0; start < n; start += chunk) {
       const auto rows = static_cast<Eigen::Index>(std::min<std::size_t>(chunk, n - start));
+      // The cosine and sine columns by rotation (one complex multiply per sample), seeded
+      // exactly at each chunk so rounding cannot build up over more than 512 samples.
+      const double t0 = static_cast<double>(start) - centre;
+      for (std::size_t k = 0; k < k_tones; ++k) {
+        phasor[k] = std::polar(1.0, omega[k] * t0);
+        advance[k] = std::polar(1.0, omega[k]);
+      }
       for (Eigen::Index r = 0; r < rows; ++r) {
         const double t = static_cast<double>(start + static_cast<std::size_t>(r)) - centre;
         jac(r, 0) = 1.0;
         for (std::size_t k = 0; k < k_tones; ++k) {
-          const double c = std::cos(omega[k] * t), s = std::sin(omega[k] * t);
+          const double c = phasor[k].real(), s = phasor[k].imag();
+          phasor[k] *= advance[k];
           const auto ki = static_cast<Eigen::Index>(k);
           jac(r, 1 + 2 * ki) = c;
           jac(r, 2 + 2 * ki) = s;
