@@ -2,6 +2,8 @@
 
 #include <stdexcept>
 
+#include "dsp/circuit.hpp"
+
 namespace tb::dsp {
 
 namespace {
@@ -74,6 +76,18 @@ JigNetlist build_jig(const JigSetup& setup, const Netlist& part, const CardFault
       add(n, ElementKind::capacitor, "Cin" + tag, reads[ch], "0", card.in_capacitance_f[ch]);
   }
   return jig;
+}
+
+std::complex<double> part_impedance(const Netlist& part, double freq_hz) {
+  // Drive p with 1 V and read the current returning from n through a 1-ohm sense resistor.
+  Netlist n = part;
+  add(n, ElementKind::voltage_source, "Vprobe", "p", "probe_m", 1.0);
+  add(n, ElementKind::resistor, "Rprobe", "probe_m", "n", 1.0);
+  add(n, ElementKind::resistor, "Rprobe_ground", "n", "0", 1.0);
+  const Circuit c(n);
+  const auto v = c.solve_ac(freq_hz, {{1.0, 0.0}});
+  const auto current = v[c.node_index("n")] - v[c.node_index("probe_m")];
+  return (v[c.node_index("p")] - v[c.node_index("n")]) / current;
 }
 
 }  // namespace tb::dsp

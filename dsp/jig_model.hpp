@@ -11,6 +11,7 @@
 // their mismatch), and the part stays in place.
 #pragma once
 
+#include <complex>
 #include <string>
 
 #include "dsp/bridge.hpp"
@@ -33,6 +34,10 @@ struct JigNetlist {
   std::string node_in_a = "a";  ///< node read by input A
   std::string node_in_b = "b";  ///< node read by input B
 };
+
+/// The impedance between a part's terminals p and n at freq_hz (> 0), by an AC solve of
+/// its netlist alone. Throws CircuitError for a part the model cannot solve.
+std::complex<double> part_impedance(const Netlist& part, double freq_hz);
 
 /// The part's netlist must have terminals "p" and "n" (see part_spec.hpp); its internal
 /// nodes and element names are prefixed so they cannot clash with the jig's.

@@ -129,24 +129,6 @@ cplx sensitivity(const BridgeConfig& base, cplx ratio, const auto& perturb) {
   return (solve_bridge(changed, 1.0, ratio) - solve_bridge(base, 1.0, ratio)) / h;
 }
 
-void fill_uncertainties(ToneReading& r) {
-  const double f = r.freq_hz;
-  const auto& z = r.z;
-  r.u_r = propagate(z, [](cplx v) { return v.real(); });
-  r.u_x = propagate(z, [](cplx v) { return v.imag(); });
-  r.u_mag = propagate(z, [](cplx v) { return std::abs(v); });
-  r.u_theta_deg = propagate(z, [](cplx v) { return std::arg(v) * 180 / std::numbers::pi; });
-  r.u_cs = propagate(z, [f](cplx v) { return derive(v, f).cs_f; });
-  r.u_cp = propagate(z, [f](cplx v) { return derive(v, f).cp_f; });
-  r.u_ls = propagate(z, [f](cplx v) { return derive(v, f).ls_h; });
-  r.u_lp = propagate(z, [f](cplx v) { return derive(v, f).lp_h; });
-  // Signed forms for the losses, so a value near zero propagates linearly (u(D) =
-  // u(R)/|X| at R = 0) instead of through the kink of |R|.
-  r.u_d = propagate(z, [](cplx v) { return v.real() / std::abs(v.imag()); });
-  r.u_q = propagate(z, [](cplx v) { return std::abs(v.imag()) / v.real(); });
-  r.u_rp = propagate(z, [](cplx v) { return std::norm(v) / v.real(); });
-}
-
 }  // namespace
 
 AnalysisResult analyze_recording(std::span<const double> a, std::span<const double> b,
@@ -378,12 +360,7 @@ AnalysisResult analyze_recording(std::span<const double> a, std::span<const doub
            config.channel_phase_u_rad});
     }
 
-    r.values = derive(r.z.value, r.freq_hz);
-    fill_uncertainties(r);
-    r.r_below_resolution = std::abs(r.values.r_ohm) <= r.u_r.expanded;
-    r.x_below_resolution = std::abs(r.values.x_ohm) <= r.u_x.expanded;
-    r.kind_forced = config.force_kind.has_value();
-    r.kind = config.force_kind.value_or(detect_kind(r.z.value, r.u_x.expanded));
+    update_derived(r, config.force_kind);
 
     const auto sa = block_spread(used(blocks.a));
     const auto sb = block_spread(used(blocks.b));
@@ -412,6 +389,29 @@ AnalysisResult analyze_recording(std::span<const double> a, std::span<const doub
     }
   }
   return result;
+}
+
+void update_derived(ToneReading& r, std::optional<PartKind> force_kind) {
+  r.values = derive(r.z.value, r.freq_hz);
+  const double f = r.freq_hz;
+  const auto& z = r.z;
+  r.u_r = propagate(z, [](cplx v) { return v.real(); });
+  r.u_x = propagate(z, [](cplx v) { return v.imag(); });
+  r.u_mag = propagate(z, [](cplx v) { return std::abs(v); });
+  r.u_theta_deg = propagate(z, [](cplx v) { return std::arg(v) * 180 / std::numbers::pi; });
+  r.u_cs = propagate(z, [f](cplx v) { return derive(v, f).cs_f; });
+  r.u_cp = propagate(z, [f](cplx v) { return derive(v, f).cp_f; });
+  r.u_ls = propagate(z, [f](cplx v) { return derive(v, f).ls_h; });
+  r.u_lp = propagate(z, [f](cplx v) { return derive(v, f).lp_h; });
+  // Signed forms for the losses, so a value near zero propagates linearly (u(D) =
+  // u(R)/|X| at R = 0) instead of through the kink of |R|.
+  r.u_d = propagate(z, [](cplx v) { return v.real() / std::abs(v.imag()); });
+  r.u_q = propagate(z, [](cplx v) { return std::abs(v.imag()) / v.real(); });
+  r.u_rp = propagate(z, [](cplx v) { return std::norm(v) / v.real(); });
+  r.r_below_resolution = std::abs(r.values.r_ohm) <= r.u_r.expanded;
+  r.x_below_resolution = std::abs(r.values.x_ohm) <= r.u_x.expanded;
+  r.kind_forced = force_kind.has_value();
+  r.kind = force_kind.value_or(detect_kind(r.z.value, r.u_x.expanded));
 }
 
 }  // namespace tb::dsp

@@ -100,6 +100,10 @@ class AnalysisError : public std::runtime_error {
   std::string id_, hint_;
 };
 
+/// Recomputes a reading's derived values, their uncertainties, the resolution flags and the
+/// part kind from r.z and r.freq_hz (after r.z was changed, e.g. by fixture compensation).
+void update_derived(ToneReading& r, std::optional<PartKind> force_kind);
+
 /// Analyses equal-length channels a (node A) and b (node B), samples in full-scale units.
 /// Throws AnalysisError (ids recording.*, analysis.*) or std::invalid_argument for a bad config.
 AnalysisResult analyze_recording(std::span<const double> a, std::span<const double> b,

@@ -7,7 +7,9 @@
 #include <sstream>
 
 #include "dsp/circuit.hpp"
+#include "dsp/jig_model.hpp"
 #include "dsp/part_spec.hpp"
+#include "server/bench_procedure.hpp"
 #include "server/cli_args.hpp"
 #include "server/error.hpp"
 #include "server/measurement.hpp"
@@ -19,7 +21,7 @@ namespace tb {
 
 namespace {
 
-const std::array<cli::OptionSpec, 17> kOptions{{
+const std::array<cli::OptionSpec, 20> kOptions{{
     {"part", "TEXT", "the part on the simulated jig, e.g. \"cap 6.8u esr 0.02\" (docs/parts.md)"},
     {"netlist", "FILE", "the part as a SPICE-style R/L/C netlist between nodes p and n"},
     {"freq", "HZ|auto",
@@ -34,10 +36,15 @@ const std::array<cli::OptionSpec, 17> kOptions{{
     {"device", "ID", "audio device, default simulated (the only one in this version)"},
     {"seed", "N", "seed of the simulated card's hidden faults, default 1"},
     {"no-channel-match", "", "skip the channel-match step (both inputs on node A)"},
+    {"no-open-short", "", "skip the open/short fixture compensation"},
     {"show-truth", "", "teaching aid: print the part's true impedance (simulated bench only)"},
     {"json", "", "print one JSON object"},
     {"help", "", "show this help"},
     {"sixteen-bit", "", "simulate a 16-bit card"},
+    {"clock-offset", "",
+     "give the simulated card's output and input separate clocks (up to 50 ppm apart)"},
+    {"full-scale-vrms", "VOLTS",
+     "rms volts of a full-scale sine at the inputs (states the test level)"},
 }};
 
 constexpr const char* kUsage = "tonebridge measure --part TEXT [options]";
@@ -75,20 +82,6 @@ dsp::PartSpec load_part(const cli::ParsedArgs& args) {
               "give one with --part, e.g. --part \"cap 6.8u esr 0.02\", or --netlist FILE");
 }
 
-// The true impedance of the part alone at f (teaching aid): an AC solve of the part's
-// netlist driven between p and n. Never used by the measurement.
-std::complex<double> true_impedance(const dsp::Netlist& part, double freq_hz) {
-  dsp::Netlist n = part;
-  n.elements.push_back({dsp::ElementKind::voltage_source, "Vtruth", "p", "Vtruth_m", 0.0});
-  n.elements.push_back({dsp::ElementKind::resistor, "Rtruth", "Vtruth_m", "n", 1.0});
-  n.elements.push_back({dsp::ElementKind::resistor, "Rground", "n", "0", 1.0});
-  const dsp::Circuit c(n);
-  const auto v = c.solve_ac(freq_hz, {{1.0, 0.0}});
-  // The source drives p; the current returns from n through the 1-ohm sense resistor.
-  const auto i = v[c.node_index("n")] - v[c.node_index("Vtruth_m")];
-  return (v[c.node_index("p")] - v[c.node_index("n")]) / i;
-}
-
 }  // namespace
 
 int run_measure(std::span<const std::string> argv, std::ostream& out, std::ostream& err) {
@@ -119,6 +112,9 @@ int run_measure(std::span<const std::string> argv, std::ostream& out, std::ostre
         number(args, "level", "", 0.5, 1e-4, 1, "a fraction of full scale, e.g. --level 0.3");
     req.duration_s = number(args, "duration", "s", 1, 0.1, 60, "e.g. --duration 2");
     const double mains = number(args, "mains", "Hz", 50, 50, 60, "50 or 60");
+    req.volts_per_fs = number(args, "full-scale-vrms", "V", 0, 0.01, 100,
+                              "measure node A with a multimeter while a known level plays") *
+                       std::numbers::sqrt2;
     if (mains != 50 && mains != 60)
       throw Error("cli.bad_value", "--mains must be 50 or 60", "e.g. --mains 60");
     if (auto layout = args.get("layout")) {
@@ -132,25 +128,22 @@ int run_measure(std::span<const std::string> argv, std::ostream& out, std::ostre
     const auto part = load_part(args);
 
     SimulatedBenchConfig bench;
-    bench.card = dsp::draw_card_faults(
-        {.seed = static_cast<std::uint64_t>(seed), .sixteen_bit = args.has("sixteen-bit")});
+    bench.card = dsp::draw_card_faults({.seed = static_cast<std::uint64_t>(seed),
+                                        .clock_offset = args.has("clock-offset"),
+                                        .sixteen_bit = args.has("sixteen-bit")});
     bench.jig.layout = req.layout;
     bench.jig.rref_ohm = req.rref_ohm;
     bench.part = part.netlist;
     bench.noise_seed = static_cast<std::uint64_t>(seed) * 7919 + 1;
+    bench.rref_tolerance_rel = req.rref_tolerance_rel;
     SimulatedCard card(bench);
 
+    BenchCorrections corrections;
+    corrections.channel_match = !args.has("no-channel-match");
+    corrections.open_short = !args.has("no-open-short");
     auto take = [&](double freq) {
       req.freq_hz = freq;
-      std::optional<ChannelMatch> match;
-      if (!args.has("no-channel-match")) {
-        auto jig = bench.jig;
-        jig.inputs_on_node_a = true;
-        card.reconnect(jig, part.netlist);
-        match = measure_channel_match(card, req);
-        card.reconnect(bench.jig, part.netlist);
-      }
-      return measure_once(card, req, match);
+      return measure_on_bench(card, bench.jig, part.netlist, req, corrections);
     };
 
     const std::string freq_arg = args.get("freq").value_or("auto");
@@ -168,7 +161,8 @@ int run_measure(std::span<const std::string> argv, std::ostream& out, std::ostre
 
     const auto& r = result.reading;
     std::optional<std::complex<double>> truth;
-    if (args.has("show-truth")) truth = true_impedance(part.netlist, r.freq_hz);
+    if (args.has("show-truth"))
+      truth = dsp::part_impedance(part.netlist, r.freq_hz);  // teaching aid only
     if (args.has("json")) {
       nlohmann::json j = to_json(r);
       j["device"] = "simulated";
@@ -177,6 +171,8 @@ int run_measure(std::span<const std::string> argv, std::ostream& out, std::ostre
       j["layout"] = std::string(dsp::layout_name(req.layout));
       j["rref_ohm"] = req.rref_ohm;
       j["channel_match"] = result.channel_match.has_value();
+      j["open_short"] = result.fixture_compensated;
+      j["output_level_fs"] = result.level_fs;
       j["advice"] = {{"change", result.advice.better_than_present},
                      {"rref_ohm", result.advice.rref_ohm},
                      {"layout", std::string(dsp::layout_name(result.advice.layout))},
@@ -189,8 +185,13 @@ int run_measure(std::span<const std::string> argv, std::ostream& out, std::ostre
         << " (faults hidden), part: " << part.description << "\n"
         << "layout " << dsp::layout_name(req.layout) << ", Rref " << format_si(req.rref_ohm, "Ω", 4)
         << " ± " << req.rref_tolerance_rel * 100 << " %, channel match "
-        << (result.channel_match ? "measured" : "not applied") << "\n\n"
+        << (result.channel_match ? "measured" : "not applied") << ", open/short "
+        << (result.fixture_compensated ? "applied" : "not applied") << "\n\n"
         << format_reading(r);
+    if (result.level_fs < req.level_fs) {
+      out << "    note: the inputs clipped at level " << req.level_fs << "; measured at "
+          << result.level_fs << " of full scale\n";
+    }
     if (result.advice.better_than_present) out << "    advice: " << result.advice.text << "\n";
     if (truth) {
       out << "    truth (teaching aid, not part of the measurement): "

@@ -72,6 +72,30 @@ dsp::AnalysisConfig analysis_config(const MeasureRequest& r, double achieved_hz)
   return c;
 }
 
+// Plays the tone and analyses the capture. A clipped capture is played again at a third of
+// the level (twice at most): the card's output can swing more than its inputs take.
+struct Played {
+  dsp::ToneReading reading;
+  double level_fs = 0;
+};
+
+Played play_and_analyze(AudioDevice& device, const MeasureRequest& request,
+                        dsp::AnalysisConfig config) {
+  const auto plan = plan_for(request);
+  config.tones_hz = {plan.tones[0].achieved_hz};
+  double level = request.level_fs;
+  for (int attempt = 0;; ++attempt) {
+    const auto x = excitation(plan, level);
+    const auto cap = play_and_capture(device, request.stream, x, request.stream.period_frames * 4);
+    try {
+      return {dsp::analyze_recording(cap.a, cap.b, config).readings.at(0), level};
+    } catch (const dsp::AnalysisError& e) {
+      if (e.id() != "recording.clipped" || attempt == 2) throw;
+      level /= 3;
+    }
+  }
+}
+
 }  // namespace
 
 double pre_listen(AudioDevice& device, const StreamSpec& spec, double seconds) {
@@ -93,19 +117,15 @@ double pre_listen(AudioDevice& device, const StreamSpec& spec, double seconds) {
 }
 
 ChannelMatch measure_channel_match(AudioDevice& device, const MeasureRequest& request) {
-  const auto plan = plan_for(request);
   // The part stays on the jig during this step, so listen for a charge before playing.
   pre_listen(device, request.stream, 0.1);
-  const auto x = excitation(plan, request.level_fs);
-  const auto cap = play_and_capture(device, request.stream, x, request.stream.period_frames * 4);
   // Both inputs read node A: H is the plain mean ratio; its scatter is the calibration's
   // Type A, carried into the readings' budget as gain and phase terms.
-  dsp::AnalysisConfig c = analysis_config(request, plan.tones[0].achieved_hz);
+  dsp::AnalysisConfig c = analysis_config(request, request.freq_hz);
   c.bridge.layout = dsp::Layout::part_high;  // any: only the ratio is used
   c.rref_tolerance_rel = 0;
   c.check_swapped = false;
-  const auto result = dsp::analyze_recording(cap.a, cap.b, c);
-  const auto& r = result.readings.at(0);
+  const auto r = play_and_analyze(device, request, c).reading;
   ChannelMatch m;
   m.h = r.ratio;
   // The relative scatter of a complex mean splits evenly between its magnitude (gain)
@@ -116,22 +136,27 @@ ChannelMatch measure_channel_match(AudioDevice& device, const MeasureRequest& re
 }
 
 MeasureResult measure_once(AudioDevice& device, const MeasureRequest& request,
-                           const std::optional<ChannelMatch>& match) {
+                           const std::optional<ChannelMatch>& match,
+                           const std::optional<dsp::FixtureStandards>& fixture) {
   MeasureResult out;
   out.requested_hz = request.freq_hz;
-  const auto plan = plan_for(request);
+  plan_for(request);  // refuses a bad request before anything is played
   out.pre_listen_peak_fs = pre_listen(device, request.stream, 0.1);
-  const auto x = excitation(plan, request.level_fs);
-  const auto cap = play_and_capture(device, request.stream, x, request.stream.period_frames * 4);
-  auto config = analysis_config(request, plan.tones[0].achieved_hz);
+  auto config = analysis_config(request, request.freq_hz);
   if (match) {
     config.bridge.channel_match = match->h;
     config.channel_gain_u_rel = match->u_gain_rel;
     config.channel_phase_u_rad = match->u_phase_rad;
     out.channel_match = match;
   }
-  const auto result = dsp::analyze_recording(cap.a, cap.b, config);
-  out.reading = result.readings.at(0);
+  const auto played = play_and_analyze(device, request, config);
+  out.reading = played.reading;
+  out.level_fs = played.level_fs;
+  if (fixture) {
+    out.reading.z = dsp::compensate(out.reading.z, *fixture);
+    dsp::update_derived(out.reading, request.force_kind);
+    out.fixture_compensated = true;
+  }
   out.advice = advise(out.reading.values.mag_ohm, request.rref_ohm, request.layout,
                       {1, 10, 100, 1000, 10000, 100000});
   return out;

@@ -13,6 +13,7 @@
 #include <string>
 #include <vector>
 
+#include "dsp/fixture_correction.hpp"
 #include "dsp/recording_analysis.hpp"
 #include "server/audio_device.hpp"
 
@@ -46,8 +47,10 @@ struct MeasureResult {
   dsp::ToneReading reading;
   double requested_hz = 0;
   std::optional<ChannelMatch> channel_match;
+  bool fixture_compensated = false;
   Advice advice;
   double pre_listen_peak_fs = 0;  ///< largest input sample before the tone started
+  double level_fs = 0;            ///< output level used (lowered from the request if it clipped)
 };
 
 /// Listens to both inputs for `seconds` with the output silent; throws tb::Error
@@ -59,9 +62,13 @@ double pre_listen(AudioDevice& device, const StreamSpec& spec, double seconds);
 /// a charged part first, as measure_once does).
 ChannelMatch measure_channel_match(AudioDevice& device, const MeasureRequest& request);
 
-/// One reading. Throws tb::Error (device.*, part.charged, measure.*) or dsp::AnalysisError.
+/// One reading (played again at a third of the level, twice at most, if the capture clips),
+/// with the channel match divided out and, when given, open/short fixture
+/// compensation applied (its standards measured at the same frequency, Rref and layout).
+/// Throws tb::Error (device.*, part.charged, measure.*) or dsp::AnalysisError.
 MeasureResult measure_once(AudioDevice& device, const MeasureRequest& request,
-                           const std::optional<ChannelMatch>& match);
+                           const std::optional<ChannelMatch>& match,
+                           const std::optional<dsp::FixtureStandards>& fixture = std::nullopt);
 
 /// The reference resistor of `available` (ohm) and the layout that suit an impedance:
 /// |Z| near Rref gives the lowest divider error; high impedances (>= 10 kohm) go in the

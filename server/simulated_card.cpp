@@ -105,9 +105,21 @@ void SimulatedCard::reconnect(const dsp::JigSetup& jig, const dsp::Netlist& part
   build(fs_);
 }
 
+double SimulatedCard::true_rref_ohm(double nominal_ohm) {
+  auto it = rref_true_.find(nominal_ohm);
+  if (it == rref_true_.end()) {
+    const double tol = config_.rref_tolerance_rel;
+    std::uniform_real_distribution<double> within(-tol, tol);
+    it = rref_true_.emplace(nominal_ohm, nominal_ohm * (1 + (tol > 0 ? within(rng_) : 0.0))).first;
+  }
+  return it->second;
+}
+
 void SimulatedCard::build(double sample_rate_hz) {
   fs_ = sample_rate_hz;
-  const auto jig = dsp::build_jig(config_.jig, config_.part, config_.card);
+  auto setup = config_.jig;
+  setup.rref_ohm = true_rref_ohm(config_.jig.rref_ohm);
+  const auto jig = dsp::build_jig(setup, config_.part, config_.card);
   circuit_ = std::make_unique<dsp::Circuit>(jig.netlist);
   solver_ = std::make_unique<dsp::TransientSolver>(*circuit_, fs_ * kReads,
                                                    static_cast<int>(kOversample / kReads));
@@ -120,7 +132,7 @@ void SimulatedCard::build(double sample_rate_hz) {
   dac_hist_.assign(kTapsPerPhase, 0.0);
   for (int ch = 0; ch < 2; ++ch) {
     adc_taps_[ch] = adc_taps(config_.card.in_delay_s[ch] * fs_);
-    node_hist_[ch].assign(kAdcTaps, solver_->voltage(ch == 0 ? node_a_ : node_b_));
+    node_hist_[ch].assign(2 * kAdcTaps, solver_->voltage(ch == 0 ? node_a_ : node_b_));
   }
   hist_pos_ = 0;
   fine_.assign(kOversample, 0.0);
@@ -199,8 +211,13 @@ void SimulatedCard::render(std::span<const float> out, std::span<float> in_a,
     const std::size_t per_read = kOversample / kReads;
     for (std::size_t r = 0; r < kReads; ++r) {
       solver_->step_oversampled(std::span<const double>(fine_).subspan(r * per_read, per_read));
-      node_hist_[0][hist_pos_] = solver_->voltage(node_a_);
-      node_hist_[1][hist_pos_] = solver_->voltage(node_b_);
+      // Each value is written twice, kAdcTaps apart, so the filter reads one contiguous
+      // window without wrapping.
+      for (int ch = 0; ch < 2; ++ch) {
+        const double v_node = solver_->voltage(ch == 0 ? node_a_ : node_b_);
+        node_hist_[ch][hist_pos_] = v_node;
+        node_hist_[ch][hist_pos_ + kAdcTaps] = v_node;
+      }
       hist_pos_ = (hist_pos_ + 1) % kAdcTaps;
     }
     // Each input decimates its node through the anti-alias filter, at its own sampling
@@ -209,10 +226,12 @@ void SimulatedCard::render(std::span<const float> out, std::span<float> in_a,
     for (int ch = 0; ch < 2; ++ch) {
       const auto& g = adc_taps_[ch];
       double mine = 0, theirs = 0;
+      // Newest sample at hist_pos_ + kAdcTaps - 1, oldest at hist_pos_.
+      const double* m = node_hist_[ch].data() + hist_pos_ + kAdcTaps - 1;
+      const double* o = node_hist_[1 - ch].data() + hist_pos_ + kAdcTaps - 1;
       for (std::size_t i = 0; i < kAdcTaps; ++i) {
-        const std::size_t at = (hist_pos_ + kAdcTaps - 1 - i) % kAdcTaps;
-        mine += g[i] * node_hist_[ch][at];
-        theirs += g[i] * node_hist_[1 - ch][at];
+        mine += g[i] * m[-static_cast<std::ptrdiff_t>(i)];
+        theirs += g[i] * o[-static_cast<std::ptrdiff_t>(i)];
       }
       v[ch] = mine;
       other[ch] = theirs;

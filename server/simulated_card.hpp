@@ -18,6 +18,7 @@
 
 #include <atomic>
 #include <cstdint>
+#include <map>
 #include <memory>
 #include <random>
 #include <thread>
@@ -35,6 +36,9 @@ struct SimulatedBenchConfig {
   dsp::JigSetup jig;  ///< lead resistances are filled in from the card's faults
   dsp::Netlist part;  ///< terminals "p" and "n" (see part_spec.hpp)
   std::uint64_t noise_seed = 1;
+  /// Each reference resistor's true value lies within this tolerance of its nominal value
+  /// (drawn once per nominal value, uniformly), as a real resistor's does. Hidden.
+  double rref_tolerance_rel = 0;
   bool real_time = false;  ///< pace periods to the wall clock (the service) or run free (tests)
 };
 
@@ -58,6 +62,8 @@ class SimulatedCard final : public AudioDevice {
   void reconnect(const dsp::JigSetup& jig, const dsp::Netlist& part);
 
   const dsp::CardFaults& card() const { return config_.card; }
+  /// True value of the reference resistor with this nominal value (teaching output only).
+  double true_rref_ohm(double nominal_ohm);
   /// Lead resistances of the present connection (for teaching output only).
   double lead_hot_ohm() const { return config_.jig.lead_hot_ohm; }
 
@@ -67,6 +73,7 @@ class SimulatedCard final : public AudioDevice {
 
   SimulatedBenchConfig config_;
   double lead_base_hot_ = 0, lead_base_cold_ = 0;
+  std::map<double, double> rref_true_;  // nominal -> true value of each reference resistor
   std::mt19937_64 rng_;
   std::normal_distribution<double> gauss_{0.0, 1.0};
 

@@ -5,6 +5,7 @@
 #include <numbers>
 
 #include "dsp/circuit.hpp"
+#include "server/bench_procedure.hpp"
 #include "server/capture.hpp"
 #include "server/error.hpp"
 #include "server/measurement.hpp"
@@ -146,4 +147,16 @@ TEST_CASE("the simulated card refuses bad stream settings", "[simulated_card]") 
   CHECK(id_of({.sample_rate_hz = 12345}) == "device.bad_rate");
   CHECK(id_of({.sample_rate_hz = 48000, .period_frames = 1}) == "device.bad_period");
   CHECK(id_of({.sample_rate_hz = 48000, .period_frames = 256}) == "none");
+}
+
+TEST_CASE("open/short on a card that does not load the jig treats the open as ideal",
+          "[simulated_card]") {
+  // An ideal card's open reads node B equal to node A: beyond resolution, i.e. infinite.
+  const auto part = capacitor(2.2e-6, 0.3);
+  SimulatedBenchConfig cfg = bench(dsp::ideal_card(), part, 100);
+  SimulatedCard card(cfg);
+  const auto r = measure_on_bench(card, cfg.jig, part, request(1000, 100), {});
+  const cplx truth{0.3, -1 / (2 * std::numbers::pi * 1000 * 2.2e-6)};
+  CHECK(r.fixture_compensated);
+  CHECK(test::vector_error(r.reading.z.value, truth) < 1e-5);
 }

@@ -1,0 +1,28 @@
+// The whole sequence of one corrected reading on the simulated bench, which can rewire its
+// own jig: channel match (both inputs on node A), open (nothing on the jig), short (leads
+// clipped together), then the part, every step at the request's frequency, Rref and
+// layout. On a real card these are guided steps the user makes (a later calibration
+// workflow); the bench makes them itself so the corrections can be tested.
+#pragma once
+
+#include "dsp/netlist.hpp"
+#include "server/measurement.hpp"
+#include "server/simulated_card.hpp"
+
+namespace tb {
+
+struct BenchCorrections {
+  bool channel_match = true;
+  bool open_short = true;
+  /// Repeatability of the two contacts together when a part is reconnected, half-width,
+  /// ohm (a jig property the user states; default: 1 mohm per clip, common practice,
+  /// no source).
+  double reconnect_half_width_ohm = 0.002;
+};
+
+/// Measures `part` after the corrections asked for; leaves the part connected.
+MeasureResult measure_on_bench(SimulatedCard& card, const dsp::JigSetup& jig,
+                               const dsp::Netlist& part, const MeasureRequest& request,
+                               const BenchCorrections& corrections);
+
+}  // namespace tb
