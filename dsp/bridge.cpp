@@ -2,6 +2,7 @@
 
 #include <cmath>
 #include <limits>
+#include <numbers>
 #include <stdexcept>
 
 namespace tb::dsp {
@@ -112,6 +113,10 @@ cplx parallel(cplx a, cplx b) {
   // A lossless resonance (e.g. L || C at its frequency): the combination is an open.
   if (sum == cplx{}) return {std::numeric_limits<double>::infinity(), 0.0};
   return a * b / sum;
+}
+
+cplx InputLoad::at(double freq_hz) const {
+  return 1.0 / cplx(1.0 / r_ohm, 2 * std::numbers::pi * freq_hz * c_f);
 }
 
 }  // namespace tb::dsp

@@ -26,6 +26,14 @@ std::string_view layout_name(Layout layout);
 /// "part-low" / "part-high" (also accepts "low"/"high"); nullopt otherwise.
 std::optional<Layout> parse_layout(std::string_view text);
 
+/// A card input as a resistance in parallel with a capacitance (the card plus its cable):
+/// its impedance depends on the frequency. r_ohm > 0, c_f >= 0.
+struct InputLoad {
+  double r_ohm = 47e3;
+  double c_f = 0;
+  cplx at(double freq_hz) const;
+};
+
 struct BridgeConfig {
   Layout layout = Layout::part_low;
   /// Reference resistor as a complex impedance (its own reactance may be included), ohm, |rref| >

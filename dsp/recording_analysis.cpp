@@ -309,10 +309,12 @@ AnalysisResult analyze_recording(std::span<const double> a, std::span<const doub
     const auto used = [&](const std::vector<cplx>& v) {
       return std::span<const cplx>(v).subspan(r.settle.first, r.blocks_used);
     };
+    BridgeConfig bridge = config.bridge;
+    if (config.input_load) bridge.input_impedance_ohm = config.input_load->at(freq);
     std::vector<cplx> z_blocks;
     try {
       for (std::size_t i = r.settle.first; i < r.settle.first + r.blocks_used; ++i)
-        z_blocks.push_back(solve_bridge(config.bridge, blocks.a[i], blocks.b[i]));
+        z_blocks.push_back(solve_bridge(bridge, blocks.a[i], blocks.b[i]));
     } catch (const std::domain_error&) {
       throw AnalysisError(
           "analysis.bridge_singular",
@@ -332,7 +334,7 @@ AnalysisResult analyze_recording(std::span<const double> a, std::span<const doub
     }
 
     // Type B inputs, by sensitivity of the bridge solution at the mean ratio.
-    const BridgeConfig& bc = config.bridge;
+    const BridgeConfig& bc = bridge;
     if (config.rref_tolerance_rel > 0) {
       r.z.type_b.push_back(
           {"rref_tolerance",

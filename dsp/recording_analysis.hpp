@@ -40,6 +40,9 @@ struct AnalysisConfig {
   BridgeConfig bridge;            ///< layout, Rref, channel match, input impedance
   double rref_tolerance_rel =
       0.001;  ///< Rref tolerance half-width (rectangular), e.g. 0.001 = 0.1 %
+  /// The input reading node B as R || C, evaluated at each tone; when set it replaces
+  /// bridge.input_impedance_ohm.
+  std::optional<InputLoad> input_load;
   double input_impedance_u_rel = 0.05;  ///< standard uncertainty of the input impedance, relative
   double channel_gain_u_rel = 0;       ///< standard uncertainty of the channel-match gain, relative
   double channel_phase_u_rad = 0;      ///< standard uncertainty of the channel-match phase

@@ -79,17 +79,15 @@ dsp::AnalysisConfig build_config(const cli::ParsedArgs& args, double sample_rate
   if (auto r = args.get("input-r")) {
     const double r_in = cli::parse_quantity(*r, "ohm", "--input-r");
     if (!(r_in > 0)) throw Error("cli.out_of_range", "--input-r must be > 0", "e.g. --input-r 47k");
-    std::complex<double> y = 1.0 / r_in;
+    dsp::InputLoad load{r_in, 0.0};
     if (auto c = args.get("input-c")) {
-      const double c_in = cli::parse_quantity(*c, "F", "--input-c");
-      if (!(c_in >= 0 && c_in < 1e-6)) {
+      load.c_f = cli::parse_quantity(*c, "F", "--input-c");
+      if (!(load.c_f >= 0 && load.c_f < 1e-6)) {
         throw Error("cli.out_of_range", "--input-c must be between 0 and 1 uF, got " + *c,
                     "card inputs are tens to hundreds of pF, e.g. --input-c 100p");
       }
-      // The admittance of C is frequency dependent; analyze applies it per tone below.
-      config.input_impedance_u_rel = 0.05;
     }
-    config.bridge.input_impedance_ohm = 1.0 / y;
+    config.input_load = load;
   } else if (args.has("input-c")) {
     throw Error("cli.missing_option", "--input-c needs --input-r",
                 "give both, e.g. --input-r 47k --input-c 100p");
@@ -151,26 +149,7 @@ int run_analyze(std::span<const std::string> argv, std::ostream& out, std::ostre
     std::vector<double>* b = &rec.data[1];
     if (args.has("swap")) std::swap(a, b);
 
-    dsp::AnalysisResult result;
-    if (args.has("input-c")) {
-      // A capacitive input differs per tone: analyse once to find the tones, then once per
-      // tone with the input impedance at that frequency.
-      const double r_in = config.bridge.input_impedance_ohm->real();
-      const double c_in = cli::parse_quantity(*args.get("input-c"), "F", "--input-c");
-      auto first = dsp::analyze_recording(*a, *b, config);
-      result = first;
-      result.readings.clear();
-      for (const auto& reading : first.readings) {
-        auto per_tone = config;
-        per_tone.tones_hz = {reading.freq_hz};
-        const std::complex<double> y(1.0 / r_in, 2 * std::numbers::pi * reading.freq_hz * c_in);
-        per_tone.bridge.input_impedance_ohm = 1.0 / y;
-        auto one = dsp::analyze_recording(*a, *b, per_tone);
-        result.readings.push_back(one.readings.at(0));
-      }
-    } else {
-      result = dsp::analyze_recording(*a, *b, config);
-    }
+    const auto result = dsp::analyze_recording(*a, *b, config);
 
     if (args.has("json")) {
       auto j = to_json(result);

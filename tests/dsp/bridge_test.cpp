@@ -290,3 +290,14 @@ TEST_CASE("bridge rule: relative error is lowest for |Z| near Rref", "[bridge][m
     CHECK(rms[at_tenth] >= 2.0 * rms[at_rref]);
   }
 }
+
+TEST_CASE("an input load is R in parallel with C at each frequency", "[bridge]") {
+  // Textbook parallel RC: Z = R / (1 + j w R C) (Nahvi & Edminister, Schaum's Outline).
+  const tb::dsp::InputLoad load{47e3, 100e-12};
+  for (double f : {100.0, 1000.0, 20000.0}) {
+    const double wrc = 2 * 3.141592653589793 * f * 47e3 * 100e-12;
+    const std::complex<double> expected = 47e3 / std::complex<double>(1, wrc);
+    CHECK(std::abs(load.at(f) - expected) < 1e-9 * std::abs(expected));
+  }
+  CHECK(tb::dsp::InputLoad{1e3, 0}.at(50).real() == Approx(1e3));
+}
