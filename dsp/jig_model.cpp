@@ -8,17 +8,6 @@ namespace tb::dsp {
 
 namespace {
 
-void add(Netlist& n, ElementKind kind, const std::string& name, const std::string& p,
-         const std::string& m, double value) {
-  Element e;
-  e.kind = kind;
-  e.name = name;
-  e.node_p = p;
-  e.node_n = m;
-  e.value = value;
-  n.elements.push_back(e);
-}
-
 // A series resistance that may be zero: a zero-ohm resistor would make the MNA matrix
 // singular, so it becomes a 1 micro-ohm link (far below anything the bench resolves).
 double link(double ohm) {
@@ -40,25 +29,25 @@ JigNetlist build_jig(const JigSetup& setup, const Netlist& part, const CardFault
 
   JigNetlist jig;
   Netlist& n = jig.netlist;
-  add(n, ElementKind::voltage_source, jig.source, "dac", "0", 0.0);
-  add(n, ElementKind::resistor, "Rout", "dac", "o", link(card.out_resistance_ohm));
+  add_element(n, ElementKind::voltage_source, jig.source, "dac", "0", 0.0);
+  add_element(n, ElementKind::resistor, "Rout", "dac", "o", link(card.out_resistance_ohm));
   if (card.out_coupling_f > 0) {
-    add(n, ElementKind::capacitor, "Cout", "o", "a", card.out_coupling_f);
+    add_element(n, ElementKind::capacitor, "Cout", "o", "a", card.out_coupling_f);
   } else {
-    add(n, ElementKind::resistor, "Cout_link", "o", "a", link(0));
+    add_element(n, ElementKind::resistor, "Cout_link", "o", "a", link(0));
   }
   std::string hot, cold;
   if (setup.layout == Layout::part_low) {
-    add(n, ElementKind::resistor, "Rref", "a", "b", setup.rref_ohm);
+    add_element(n, ElementKind::resistor, "Rref", "a", "b", setup.rref_ohm);
     hot = "b";
     cold = "0";
   } else {
-    add(n, ElementKind::resistor, "Rref", "b", "0", setup.rref_ohm);
+    add_element(n, ElementKind::resistor, "Rref", "b", "0", setup.rref_ohm);
     hot = "a";
     cold = "b";
   }
-  add(n, ElementKind::resistor, "Rlead_hot", hot, "part_p", link(setup.lead_hot_ohm));
-  add(n, ElementKind::resistor, "Rlead_cold", "part_n", cold, link(setup.lead_cold_ohm));
+  add_element(n, ElementKind::resistor, "Rlead_hot", hot, "part_p", link(setup.lead_hot_ohm));
+  add_element(n, ElementKind::resistor, "Rlead_cold", "part_n", cold, link(setup.lead_cold_ohm));
   for (Element e : part.elements) {
     e.name = "part_" + e.name;
     for (auto* node : {&e.node_p, &e.node_n}) {
@@ -71,9 +60,11 @@ JigNetlist build_jig(const JigSetup& setup, const Netlist& part, const CardFault
   for (int ch = 0; ch < 2; ++ch) {
     const std::string tag = ch == 0 ? "A" : "B";
     if (card.in_resistance_ohm[ch] > 0)
-      add(n, ElementKind::resistor, "Rin" + tag, reads[ch], "0", card.in_resistance_ohm[ch]);
+      add_element(n, ElementKind::resistor, "Rin" + tag, reads[ch], "0",
+                  card.in_resistance_ohm[ch]);
     if (card.in_capacitance_f[ch] > 0)
-      add(n, ElementKind::capacitor, "Cin" + tag, reads[ch], "0", card.in_capacitance_f[ch]);
+      add_element(n, ElementKind::capacitor, "Cin" + tag, reads[ch], "0",
+                  card.in_capacitance_f[ch]);
   }
   return jig;
 }
@@ -81,9 +72,9 @@ JigNetlist build_jig(const JigSetup& setup, const Netlist& part, const CardFault
 std::complex<double> part_impedance(const Netlist& part, double freq_hz) {
   // Drive p with 1 V and read the current returning from n through a 1-ohm sense resistor.
   Netlist n = part;
-  add(n, ElementKind::voltage_source, "Vprobe", "p", "probe_m", 1.0);
-  add(n, ElementKind::resistor, "Rprobe", "probe_m", "n", 1.0);
-  add(n, ElementKind::resistor, "Rprobe_ground", "n", "0", 1.0);
+  add_element(n, ElementKind::voltage_source, "Vprobe", "p", "probe_m", 1.0);
+  add_element(n, ElementKind::resistor, "Rprobe", "probe_m", "n", 1.0);
+  add_element(n, ElementKind::resistor, "Rprobe_ground", "n", "0", 1.0);
   const Circuit c(n);
   const auto v = c.solve_ac(freq_hz, {{1.0, 0.0}});
   const auto current = v[c.node_index("n")] - v[c.node_index("probe_m")];

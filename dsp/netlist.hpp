@@ -30,4 +30,17 @@ struct Netlist {
   std::vector<Element> elements;
 };
 
+/// Appends a two-terminal element (no initial charge, linear) and returns it.
+inline Element& add_element(Netlist& netlist, ElementKind kind, std::string name,
+                            std::string node_p, std::string node_n, double value) {
+  Element e;
+  e.kind = kind;
+  e.name = std::move(name);
+  e.node_p = std::move(node_p);
+  e.node_n = std::move(node_n);
+  e.value = value;
+  netlist.elements.push_back(std::move(e));
+  return netlist.elements.back();
+}
+
 }  // namespace tb::dsp

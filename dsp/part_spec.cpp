@@ -876,14 +876,7 @@ class Builder {
 
   Element& add(ElementKind kind, const std::string& name, const std::string& a,
                const std::string& b, double value) {
-    Element e;
-    e.kind = kind;
-    e.name = name;
-    e.node_p = a;
-    e.node_n = b;
-    e.value = value;
-    netlist.elements.push_back(e);
-    return netlist.elements.back();
+    return add_element(netlist, kind, name, a, b, value);
   }
 
   void build_simple(const Parsed& p, const std::string& hot, const std::string& cold) {

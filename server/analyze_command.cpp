@@ -7,6 +7,7 @@
 #include "dsp/recording_analysis.hpp"
 #include "server/cli_args.hpp"
 #include "server/error.hpp"
+#include "server/error_report.hpp"
 #include "server/reading_json.hpp"
 #include "server/reading_text.hpp"
 #include "server/wav_file.hpp"
@@ -184,16 +185,8 @@ int run_analyze(std::span<const std::string> argv, std::ostream& out, std::ostre
     out << "uncertainties are expanded (about 95 %), k from the effective degrees of freedom;\n"
            "channel mismatch and fixture leads are not calibrated out in this analysis\n";
     return 0;
-  } catch (const Error& e) {
-    err << "tonebridge analyze: error [" << e.id() << "]: " << e.what() << ". " << e.hint() << "\n";
-    return e.id().rfind("cli.", 0) == 0 ? 2 : 1;
-  } catch (const dsp::AnalysisError& e) {
-    err << "tonebridge analyze: error [" << e.id() << "]: " << e.what() << ". " << e.hint() << "\n";
-    return 1;
-  } catch (const std::invalid_argument& e) {
-    err << "tonebridge analyze: error [analysis.bad_config]: " << e.what()
-        << ". Check the options against `tonebridge analyze --help`\n";
-    return 2;
+  } catch (...) {
+    return report_current_error("analyze", err);
   }
 }
 

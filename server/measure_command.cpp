@@ -12,6 +12,7 @@
 #include "server/bench_procedure.hpp"
 #include "server/cli_args.hpp"
 #include "server/error.hpp"
+#include "server/error_report.hpp"
 #include "server/measurement.hpp"
 #include "server/reading_json.hpp"
 #include "server/reading_text.hpp"
@@ -63,20 +64,16 @@ double number(const cli::ParsedArgs& args, const std::string& name, const char* 
 }
 
 dsp::PartSpec load_part(const cli::ParsedArgs& args) {
-  try {
-    if (auto text = args.get("part")) return dsp::parse_part(*text);
-    if (auto file = args.get("netlist")) {
-      std::ifstream in(*file);
-      if (!in) {
-        throw Error("file.unreadable", *file + ": cannot open the netlist",
-                    "give the path of a text file with R/L/C lines between nodes p and n");
-      }
-      std::stringstream s;
-      s << in.rdbuf();
-      return dsp::parse_netlist(s.str());
+  if (auto text = args.get("part")) return dsp::parse_part(*text);
+  if (auto file = args.get("netlist")) {
+    std::ifstream in(*file);
+    if (!in) {
+      throw Error("file.unreadable", *file + ": cannot open the netlist",
+                  "give the path of a text file with R/L/C lines between nodes p and n");
     }
-  } catch (const dsp::PartSpecError& e) {
-    throw Error(e.id(), e.what(), e.hint());
+    std::stringstream s;
+    s << in.rdbuf();
+    return dsp::parse_netlist(s.str());
   }
   throw Error("cli.missing_option", "the simulated bench needs a part on its jig",
               "give one with --part, e.g. --part \"cap 6.8u esr 0.02\", or --netlist FILE");
@@ -199,16 +196,8 @@ int run_measure(std::span<const std::string> argv, std::ostream& out, std::ostre
           << format_si(std::abs(truth->imag()), "Ω", 5) << "\n";
     }
     return 0;
-  } catch (const Error& e) {
-    err << "tonebridge measure: error [" << e.id() << "]: " << e.what() << ". " << e.hint() << "\n";
-    return e.id().rfind("cli.", 0) == 0 ? 2 : 1;
-  } catch (const dsp::AnalysisError& e) {
-    err << "tonebridge measure: error [" << e.id() << "]: " << e.what() << ". " << e.hint() << "\n";
-    return 1;
-  } catch (const dsp::CircuitError& e) {
-    err << "tonebridge measure: error [" << e.id() << "]: " << e.message() << ". " << e.hint()
-        << "\n";
-    return 1;
+  } catch (...) {
+    return report_current_error("measure", err);
   }
 }
 
