@@ -1,0 +1,181 @@
+// The service's store: one SQLite file (WAL mode) holding every reading, every sweep and
+// its points, calibrations, repair jobs and their parts, and the hashes of access tokens.
+//
+// Every write is one transaction, committed before the call returns: a reading or a sweep
+// point that has been handed to the store survives a kill -9 of the process. The schema
+// carries a version (table schema_version) and is brought up to date by numbered
+// migrations, each in its own transaction, when the file is opened.
+//
+// Opening never overwrites or repairs a file: a file that is not SQLite, is truncated or
+// fails SQLite's quick_check is refused with tb::Error store.* (docs/errors.md), and the
+// file is left exactly as it was.
+//
+// Thread safety: every member may be called from any thread; calls are serialised inside.
+// Bodies are JSON objects, kept as text; the columns beside them are what lists and
+// filters need.
+#pragma once
+
+#include <cstdint>
+#include <filesystem>
+#include <memory>
+#include <mutex>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include <nlohmann/json.hpp>
+
+struct sqlite3;
+
+namespace tb {
+
+/// State of a sweep in the store. "running" only while the engine works on it; a
+/// sweep found "running" when the store opens was cut off by a crash or kill and
+/// becomes "interrupted".
+enum class SweepStatus { running, complete, cancelled, interrupted, failed };
+std::string to_string(SweepStatus s);  ///< "running", "complete", ...
+
+struct ReadingRecord {
+  std::int64_t id = 0;
+  std::string taken_at;  ///< UTC, ISO 8601 with milliseconds, "2026-12-02T05:18:16.123Z"
+  std::string origin;    ///< "single", "continuous"
+  std::optional<std::int64_t> part_id;
+  nlohmann::json body;  ///< the reading as the API returns it
+};
+
+struct SweepRecord {
+  std::int64_t id = 0;
+  std::string started_at, ended_at;  ///< ended_at empty while running
+  SweepStatus status = SweepStatus::running;
+  std::string label;
+  std::optional<std::int64_t> part_id;
+  nlohmann::json params;  ///< the request that started it
+  nlohmann::json end;     ///< why it ended when not complete: {"id":..,"message":..}; null
+  int points_saved = 0;
+  int points_planned = 0;
+};
+
+struct SweepPoint {
+  int index = 0;  ///< 0-based position in the plan
+  double freq_hz = 0;
+  nlohmann::json body;
+};
+
+struct CalibrationRecord {
+  std::int64_t id = 0;
+  std::string taken_at;
+  std::string kind;  ///< "channel_match", "open", "short", "load", "level"
+  std::string device;
+  double sample_rate_hz = 0;
+  std::string layout;  ///< "part-low", "part-high"
+  double rref_ohm = 0;
+  nlohmann::json body;  ///< frequency grid and values
+};
+
+struct JobRecord {
+  std::int64_t id = 0;
+  std::string created_at;
+  std::string make, model, serial, notes;
+};
+
+struct PartRecord {
+  std::int64_t id = 0;
+  std::int64_t job_id = 0;
+  std::string designator;  ///< "C12", "L3"
+  std::string marking;     ///< as printed on the part, e.g. "4n7 J 100V"
+  std::string notes;
+  std::string created_at;
+};
+
+struct TokenRecord {
+  std::int64_t id = 0;
+  std::string role;      ///< "control" (may change things) or "view" (read only)
+  std::string hash_hex;  ///< SHA-256 of the token, lower-case hex
+  std::string created_at;
+};
+
+class Store {
+ public:
+  /// $XDG_DATA_HOME/tonebridge/tonebridge.db, or ~/.local/share/tonebridge/tonebridge.db.
+  static std::filesystem::path default_path();
+
+  /// Opens (creating the file and its folder if missing), sets WAL, checks integrity,
+  /// migrates, then marks sweeps left "running" as "interrupted".
+  /// Throws tb::Error store.not_sqlite (the file is something else), store.damaged
+  /// (truncated or failing quick_check), store.too_new (schema newer than this program),
+  /// store.unwritable (folder or file cannot be created or written).
+  explicit Store(const std::filesystem::path& path);
+  ~Store();
+  Store(const Store&) = delete;
+  Store& operator=(const Store&) = delete;
+
+  const std::filesystem::path& path() const { return path_; }
+  int schema_version() const;
+  static int latest_schema_version();
+  /// Sweeps this open found "running" and marked "interrupted".
+  int interrupted_at_open() const { return interrupted_at_open_; }
+
+  // Readings.
+  std::int64_t add_reading(const std::string& origin, const nlohmann::json& body,
+                           std::optional<std::int64_t> part_id = std::nullopt);
+  std::optional<ReadingRecord> reading(std::int64_t id) const;
+  /// Newest first; `before_id` > 0 pages back from there.
+  std::vector<ReadingRecord> readings(int limit, std::int64_t before_id = 0) const;
+  std::optional<ReadingRecord> latest_reading() const;
+  bool delete_reading(std::int64_t id);
+
+  // Sweeps.
+  std::int64_t begin_sweep(const nlohmann::json& params, int points_planned,
+                           const std::string& label = "",
+                           std::optional<std::int64_t> part_id = std::nullopt);
+  /// Saves one point (one transaction); a second point with the same index replaces it.
+  void add_sweep_point(std::int64_t sweep_id, const SweepPoint& point);
+  /// Throws tb::Error store.not_found for an unknown sweep.
+  void end_sweep(std::int64_t sweep_id, SweepStatus status, const nlohmann::json& end = nullptr);
+  std::optional<SweepRecord> sweep(std::int64_t id) const;
+  std::vector<SweepPoint> sweep_points(std::int64_t id) const;                   ///< by index
+  std::vector<SweepRecord> sweeps(int limit, std::int64_t before_id = 0) const;  ///< newest first
+  bool delete_sweep(std::int64_t id);  ///< with its points
+
+  // Calibrations.
+  std::int64_t add_calibration(const CalibrationRecord& c);  ///< id and taken_at are set here
+  std::optional<CalibrationRecord> calibration(std::int64_t id) const;
+  std::vector<CalibrationRecord> calibrations(int limit) const;  ///< newest first
+  /// Newest calibration of this kind for this device, rate, layout and Rref.
+  std::optional<CalibrationRecord> latest_calibration(const std::string& kind,
+                                                      const std::string& device,
+                                                      double sample_rate_hz,
+                                                      const std::string& layout,
+                                                      double rref_ohm) const;
+  bool delete_calibration(std::int64_t id);
+
+  // Repair jobs and their parts.
+  std::int64_t add_job(const JobRecord& j);
+  bool update_job(const JobRecord& j);  ///< false if no such job
+  std::optional<JobRecord> job(std::int64_t id) const;
+  std::vector<JobRecord> jobs() const;  ///< newest first
+  bool delete_job(std::int64_t id);     ///< with its parts; their readings and sweeps stay
+  /// Throws tb::Error store.not_found if the job does not exist, store.conflict if the
+  /// job already has a part with this designator.
+  std::int64_t add_part(const PartRecord& p);
+  bool update_part(const PartRecord& p);
+  std::optional<PartRecord> part(std::int64_t id) const;
+  std::vector<PartRecord> parts(std::int64_t job_id) const;  ///< by designator
+  bool delete_part(std::int64_t id);
+
+  // Access tokens (only hashes are stored).
+  std::int64_t add_token(const std::string& role, const std::string& hash_hex);
+  std::vector<TokenRecord> tokens() const;
+  void delete_tokens();  ///< all of them (a new token replaces the old ones)
+
+ private:
+  std::filesystem::path path_;
+  sqlite3* db_ = nullptr;
+  mutable std::mutex mutex_;
+  int interrupted_at_open_ = 0;
+};
+
+/// UTC now as ISO 8601 with milliseconds ("2026-12-02T05:18:16.123Z").
+std::string utc_now_iso();
+
+}  // namespace tb
