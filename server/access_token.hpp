@@ -5,6 +5,7 @@
 
 #include <string>
 #include <string_view>
+#include <vector>
 
 namespace tb {
 
@@ -20,10 +21,17 @@ std::string sha256_hex(std::string_view data);
 /// True when sha256_hex(token) equals hash_hex, compared in constant time.
 bool token_matches(std::string_view token, std::string_view hash_hex);
 
-/// The text as a QR code (libqrencode, error correction M) drawn with Unicode half blocks
-/// for a terminal, two rows of modules per line, with a quiet zone of 2 modules; dark
-/// modules are drawn as spaces on a light block background so it scans on dark terminals.
-/// Throws tb::Error token.qr_failed if the text does not fit.
+/// The text's QR code (libqrencode, error correction M, 8-bit mode) as rows of modules,
+/// true for a dark module, square, without the quiet zone. Throws tb::Error
+/// token.qr_failed if the text is empty, holds a NUL byte or does not fit in a QR code.
+std::vector<std::vector<bool>> qr_modules(std::string_view text);
+
+/// qr_modules(text) drawn for a terminal with Unicode half blocks (▀ ▄ █ and space), two
+/// rows of modules per line, with a quiet zone of 2 modules, every line the code's width
+/// + 4 columns wide. Each line sets its own colours with ANSI escapes, black glyphs
+/// (dark modules) on a white background, and resets them at its end, so the code scans
+/// on dark and light terminals alike; print it to a terminal, not to a log.
+/// Throws as qr_modules.
 std::string qr_for_terminal(std::string_view text);
 
 }  // namespace tb

@@ -31,7 +31,8 @@ ParsedArgs parse_args(std::span<const std::string> args, std::span<const OptionS
                       std::string_view command);
 
 /// A number with an optional SI prefix (p n u µ m k M G) and an optional unit that must
-/// match `unit` if given ("ohm"/"Ω" for ohms, "Hz", "V", "F", "H", "%"). Throws tb::Error
+/// match `unit` if given ("ohm"/"Ω" for ohms, "Hz", "V", "F", "H", "%", "s"; any unit
+/// is matched by its own spelling, so "500ms" is 0.5 with unit "s"). Throws tb::Error
 /// cli.bad_number naming the option. Example: parse_quantity("4.7k", "ohm", "--rref") == 4700.
 double parse_quantity(std::string_view text, std::string_view unit, std::string_view option);
 

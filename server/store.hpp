@@ -101,9 +101,11 @@ class Store {
 
   /// Opens (creating the file and its folder if missing), sets WAL, checks integrity,
   /// migrates, then marks sweeps left "running" as "interrupted".
-  /// Throws tb::Error store.not_sqlite (the file is something else), store.damaged
-  /// (truncated or failing quick_check), store.too_new (schema newer than this program),
-  /// store.unwritable (folder or file cannot be created or written).
+  /// Throws tb::Error store.not_sqlite (the file is something else), store.not_tonebridge
+  /// (an SQLite database of another program), store.damaged (truncated or failing
+  /// quick_check), store.too_new (schema newer than this program), store.unwritable
+  /// (folder or file cannot be created or written).
+  /// Any member may throw store.write_failed / store.read_failed when SQLite fails.
   explicit Store(const std::filesystem::path& path);
   ~Store();
   Store(const Store&) = delete;
@@ -116,6 +118,7 @@ class Store {
   int interrupted_at_open() const { return interrupted_at_open_; }
 
   // Readings.
+  /// Throws store.not_found for an unknown part_id (as does begin_sweep).
   std::int64_t add_reading(const std::string& origin, const nlohmann::json& body,
                            std::optional<std::int64_t> part_id = std::nullopt);
   std::optional<ReadingRecord> reading(std::int64_t id) const;
@@ -129,8 +132,10 @@ class Store {
                            const std::string& label = "",
                            std::optional<std::int64_t> part_id = std::nullopt);
   /// Saves one point (one transaction); a second point with the same index replaces it.
+  /// Throws store.not_found for an unknown sweep.
   void add_sweep_point(std::int64_t sweep_id, const SweepPoint& point);
-  /// Throws tb::Error store.not_found for an unknown sweep.
+  /// Throws tb::Error store.not_found for an unknown sweep; std::logic_error for
+  /// SweepStatus::running.
   void end_sweep(std::int64_t sweep_id, SweepStatus status, const nlohmann::json& end = nullptr);
   std::optional<SweepRecord> sweep(std::int64_t id) const;
   std::vector<SweepPoint> sweep_points(std::int64_t id) const;                   ///< by index
@@ -158,9 +163,11 @@ class Store {
   /// Throws tb::Error store.not_found if the job does not exist, store.conflict if the
   /// job already has a part with this designator.
   std::int64_t add_part(const PartRecord& p);
+  /// Changes designator, marking and notes (a part stays in its job); false if no such
+  /// part; store.conflict if the job already has another part with that designator.
   bool update_part(const PartRecord& p);
   std::optional<PartRecord> part(std::int64_t id) const;
-  std::vector<PartRecord> parts(std::int64_t job_id) const;  ///< by designator
+  std::vector<PartRecord> parts(std::int64_t job_id) const;  ///< by designator, C2 before C12
   bool delete_part(std::int64_t id);
 
   // Access tokens (only hashes are stored).
