@@ -4,18 +4,13 @@
 
 namespace tb {
 
-namespace {
-
-// An empty jig still has its clips; a 1 Tohm leakage keeps their nodes defined.
 dsp::Netlist open_jig() {
   return {{{dsp::ElementKind::resistor, "open", "p", "n", 1e12}}};
 }
-// Clips touching: only the leads remain (plus a micro-ohm link).
+
 dsp::Netlist shorted_jig() {
   return {{{dsp::ElementKind::resistor, "short", "p", "n", 1e-6}}};
 }
-
-}  // namespace
 
 MeasureResult measure_on_bench(SimulatedCard& card, const dsp::JigSetup& jig,
                                const dsp::Netlist& part, const MeasureRequest& request,

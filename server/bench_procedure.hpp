@@ -20,6 +20,11 @@ struct BenchCorrections {
   double reconnect_half_width_ohm = 0.002;
 };
 
+/// The jig with nothing in it: its clips stay, a 1 Tohm leakage keeps their nodes defined.
+dsp::Netlist open_jig();
+/// The jig's clips touching: only the leads remain (plus a micro-ohm link).
+dsp::Netlist shorted_jig();
+
 /// Measures `part` after the corrections asked for; leaves the part connected.
 MeasureResult measure_on_bench(SimulatedCard& card, const dsp::JigSetup& jig,
                                const dsp::Netlist& part, const MeasureRequest& request,

@@ -1,44 +1,76 @@
 #include "server/capture.hpp"
 
-#include <atomic>
+#include <algorithm>
 #include <chrono>
 #include <thread>
 
 #include "server/error.hpp"
+#include "server/sample_ring.hpp"
 
 namespace tb {
 
 Capture play_and_capture(AudioDevice& device, const StreamSpec& spec,
-                         std::span<const double> excitation, std::size_t tail_frames) {
+                         std::span<const double> excitation, std::size_t tail_frames,
+                         const std::atomic<bool>* cancel) {
   const std::size_t total = excitation.size() + tail_frames;
   Capture cap;
   cap.sample_rate_hz = spec.sample_rate_hz;
   cap.a.assign(total, 0.0);
   cap.b.assign(total, 0.0);
+  std::vector<float> out_samples(excitation.begin(), excitation.end());
+  // Half a second of both channels, or 16 periods if that is more: the engine thread
+  // drains every 2 ms, so only a stall of that length overflows it.
+  SampleRing ring(2 * std::max<std::size_t>(static_cast<std::size_t>(spec.sample_rate_hz / 2),
+                                            16 * spec.period_frames));
   // The first callback sees a period captured before anything was played: skip it, so
   // capture index 0 is the period in which excitation sample 0 was handed to the device.
-  std::size_t played = 0, captured = 0;
+  std::size_t played = 0;
   bool first = true;
-  std::atomic<bool> done{false};
-  device.start(
-      spec, [&](std::span<const float> in_a, std::span<const float> in_b, std::span<float> out) {
-        if (!first) {
-          for (std::size_t i = 0; i < in_a.size() && captured < total; ++i, ++captured) {
-            cap.a[captured] = in_a[i];
-            cap.b[captured] = in_b[i];
-          }
-          if (captured == total) done.store(true);
-        }
-        first = false;
-        for (std::size_t i = 0; i < out.size(); ++i, ++played) {
-          out[i] = played < excitation.size() ? static_cast<float>(excitation[played]) : 0.0f;
-        }
-      });
-  while (!done.load() && device.running())
+  device.start(spec,
+               [&ring, &out_samples, &played, &first](
+                   std::span<const float> in_a, std::span<const float> in_b, std::span<float> out) {
+                 if (!first) {
+                   float frame[2];
+                   for (std::size_t i = 0; i < in_a.size(); ++i) {
+                     frame[0] = in_a[i];
+                     frame[1] = in_b[i];
+                     ring.push(frame);
+                   }
+                 }
+                 first = false;
+                 for (std::size_t i = 0; i < out.size(); ++i, ++played)
+                   out[i] = played < out_samples.size() ? out_samples[played] : 0.0f;
+               });
+
+  std::vector<float> chunk(4096);
+  std::size_t captured = 0;
+  bool cancelled = false, stopped = false;
+  while (captured < total && ring.dropped() == 0) {
+    const std::size_t n = ring.pop(chunk) / 2;
+    for (std::size_t i = 0; i < n && captured < total; ++i, ++captured) {
+      cap.a[captured] = chunk[2 * i];
+      cap.b[captured] = chunk[2 * i + 1];
+    }
+    if (n > 0) continue;
+    if (cancel && cancel->load()) {
+      cancelled = true;
+      break;
+    }
+    if (stopped) break;
+    if (!device.running()) {
+      stopped = true;  // one more pass: frames may have come between the pop and the stop
+      continue;
+    }
     std::this_thread::sleep_for(std::chrono::milliseconds(2));
-  const bool complete = done.load();
+  }
   device.stop();
-  if (!complete) {
+  if (cancelled) throw Error("task.cancelled", "the measurement was cancelled", "");
+  if (ring.dropped() > 0) {
+    throw Error("capture.overrun",
+                "the service fell behind the sound card and lost samples of this capture",
+                "measure again; if it repeats, close other busy programs or raise period_frames");
+  }
+  if (captured < total) {
     throw Error("device.lost", "the audio device stopped during the measurement",
                 "check the connection to the sound card and measure again");
   }

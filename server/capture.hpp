@@ -1,7 +1,10 @@
-// Playing an excitation through a device while recording both inputs: the device's
-// callback only copies samples (no allocation, no locks); the caller's thread waits.
+// Playing an excitation through a device while recording both inputs. The device's
+// callback only copies: the excitation from a buffer prepared before the stream starts,
+// the captured frames into a lock-free ring (sample_ring.hpp). The caller's thread drains
+// the ring, watches for cancellation and for a device that stops.
 #pragma once
 
+#include <atomic>
 #include <span>
 #include <vector>
 
@@ -15,9 +18,13 @@ struct Capture {
 };
 
 /// Plays `excitation` (full-scale units, one channel) and records until it has played and
-/// `tail_frames` more have been captured. Blocks. Throws tb::Error device.lost when the
-/// device stops before the capture is complete (nothing partial is returned).
+/// `tail_frames` more have been captured. Blocks. Nothing partial is returned; throws
+/// tb::Error
+///   device.lost     the device stopped before the capture was complete;
+///   capture.overrun the ring overflowed (this thread fell behind the device);
+///   task.cancelled  `*cancel` became true (checked every few milliseconds).
 Capture play_and_capture(AudioDevice& device, const StreamSpec& spec,
-                         std::span<const double> excitation, std::size_t tail_frames);
+                         std::span<const double> excitation, std::size_t tail_frames,
+                         const std::atomic<bool>* cancel = nullptr);
 
 }  // namespace tb

@@ -11,30 +11,30 @@
 
 namespace tb {
 
-int report_current_error(std::string_view command, std::ostream& err) {
-  auto line = [&](const std::string& id, const std::string& what, const std::string& hint) {
-    err << "tonebridge " << command << ": error [" << id << "]: " << what << ". " << hint << "\n";
-  };
+ErrorInfo describe_current_error() {
   try {
     throw;
   } catch (const Error& e) {
-    line(e.id(), e.what(), e.hint());
-    return e.id().rfind("cli.", 0) == 0 ? 2 : 1;
+    return {e.id(), e.what(), e.hint()};
   } catch (const dsp::AnalysisError& e) {
-    line(e.id(), e.what(), e.hint());
+    return {e.id(), e.what(), e.hint()};
   } catch (const dsp::CircuitError& e) {
-    line(e.id(), e.message(), e.hint());
+    return {e.id(), e.message(), e.hint()};
   } catch (const dsp::PartSpecError& e) {
-    line(e.id(), e.what(), e.hint());
+    return {e.id(), e.what(), e.hint()};
   } catch (const std::invalid_argument& e) {
-    line("analysis.bad_config", e.what(),
-         "check the options against `tonebridge " + std::string(command) + " --help`");
-    return 2;
+    return {"analysis.bad_config", e.what(), "check the options against the command's help"};
   } catch (const std::exception& e) {
-    line("internal", e.what(),
-         "this is a bug in tonebridge: please report it with the command line");
+    return {"internal", e.what(), "this is a bug in tonebridge: please report it"};
   }
-  return 1;
+}
+
+int report_current_error(std::string_view command, std::ostream& err) {
+  const ErrorInfo e = describe_current_error();
+  err << "tonebridge " << command << ": error [" << e.id << "]: " << e.message << ". " << e.hint
+      << "\n";
+  const bool usage = e.id.rfind("cli.", 0) == 0 || e.id == "analysis.bad_config";
+  return usage ? 2 : 1;
 }
 
 }  // namespace tb

@@ -161,19 +161,10 @@ int run_measure(std::span<const std::string> argv, std::ostream& out, std::ostre
     if (args.has("show-truth"))
       truth = dsp::part_impedance(part.netlist, r.freq_hz);  // teaching aid only
     if (args.has("json")) {
-      nlohmann::json j = to_json(r);
+      nlohmann::json j = to_json(result, req);
       j["device"] = "simulated";
       j["seed"] = static_cast<std::uint64_t>(seed);
       j["part"] = part.description;
-      j["layout"] = std::string(dsp::layout_name(req.layout));
-      j["rref_ohm"] = req.rref_ohm;
-      j["channel_match"] = result.channel_match.has_value();
-      j["open_short"] = result.fixture_compensated;
-      j["output_level_fs"] = result.level_fs;
-      j["advice"] = {{"change", result.advice.better_than_present},
-                     {"rref_ohm", result.advice.rref_ohm},
-                     {"layout", std::string(dsp::layout_name(result.advice.layout))},
-                     {"text", result.advice.text}};
       if (truth) j["truth"] = {{"z_real_ohm", truth->real()}, {"z_imag_ohm", truth->imag()}};
       out << j.dump(2) << "\n";
       return 0;

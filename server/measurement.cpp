@@ -86,7 +86,8 @@ Played play_and_analyze(AudioDevice& device, const MeasureRequest& request,
   double level = request.level_fs;
   for (int attempt = 0;; ++attempt) {
     const auto x = excitation(plan, level);
-    const auto cap = play_and_capture(device, request.stream, x, request.stream.period_frames * 4);
+    const auto cap = play_and_capture(device, request.stream, x, request.stream.period_frames * 4,
+                                      request.cancel);
     try {
       return {dsp::analyze_recording(cap.a, cap.b, config).readings.at(0), level};
     } catch (const dsp::AnalysisError& e) {
@@ -98,9 +99,10 @@ Played play_and_analyze(AudioDevice& device, const MeasureRequest& request,
 
 }  // namespace
 
-double pre_listen(AudioDevice& device, const StreamSpec& spec, double seconds) {
+double pre_listen(AudioDevice& device, const StreamSpec& spec, double seconds,
+                  const std::atomic<bool>* cancel) {
   const std::vector<double> silence(static_cast<std::size_t>(seconds * spec.sample_rate_hz), 0.0);
-  const auto cap = play_and_capture(device, spec, silence, 0);
+  const auto cap = play_and_capture(device, spec, silence, 0, cancel);
   double peak = 0;
   for (const auto* ch : {&cap.a, &cap.b})
     for (double v : *ch)
@@ -118,7 +120,7 @@ double pre_listen(AudioDevice& device, const StreamSpec& spec, double seconds) {
 
 ChannelMatch measure_channel_match(AudioDevice& device, const MeasureRequest& request) {
   // The part stays on the jig during this step, so listen for a charge before playing.
-  pre_listen(device, request.stream, 0.1);
+  pre_listen(device, request.stream, 0.1, request.cancel);
   // Both inputs read node A: H is the plain mean ratio; its scatter is the calibration's
   // Type A, carried into the readings' budget as gain and phase terms.
   dsp::AnalysisConfig c = analysis_config(request, request.freq_hz);
@@ -141,7 +143,7 @@ MeasureResult measure_once(AudioDevice& device, const MeasureRequest& request,
   MeasureResult out;
   out.requested_hz = request.freq_hz;
   plan_for(request);  // refuses a bad request before anything is played
-  out.pre_listen_peak_fs = pre_listen(device, request.stream, 0.1);
+  out.pre_listen_peak_fs = pre_listen(device, request.stream, 0.1, request.cancel);
   auto config = analysis_config(request, request.freq_hz);
   if (match) {
     config.bridge.channel_match = match->h;
@@ -157,8 +159,8 @@ MeasureResult measure_once(AudioDevice& device, const MeasureRequest& request,
     dsp::update_derived(out.reading, request.force_kind);
     out.fixture_compensated = true;
   }
-  out.advice = advise(out.reading.values.mag_ohm, request.rref_ohm, request.layout,
-                      {1, 10, 100, 1000, 10000, 100000});
+  out.advice =
+      advise(out.reading.values.mag_ohm, request.rref_ohm, request.layout, request.rref_set_ohm);
   return out;
 }
 

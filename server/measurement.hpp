@@ -8,6 +8,7 @@
 // card the user makes it (a later, guided calibration).
 #pragma once
 
+#include <atomic>
 #include <functional>
 #include <optional>
 #include <string>
@@ -28,7 +29,12 @@ struct MeasureRequest {
   double rref_ohm = 1000;
   double rref_tolerance_rel = 0.001;
   double volts_per_fs = 0;  ///< peak volts at the inputs' full scale; 0 = unknown
+  /// The reference resistors the jig can switch to, for the advice.
+  std::vector<double> rref_set_ohm{1, 10, 100, 1000, 10000, 100000};
   std::optional<dsp::PartKind> force_kind;
+  /// The engine's cancel flag, or null: when it turns true the capture in progress stops
+  /// and the call throws tb::Error task.cancelled.
+  const std::atomic<bool>* cancel = nullptr;
 };
 
 struct ChannelMatch {
@@ -56,7 +62,8 @@ struct MeasureResult {
 /// Listens to both inputs for `seconds` with the output silent; throws tb::Error
 /// part.charged when a jump larger than 2 % of full scale shows (a charged part, or a
 /// part touching a live circuit): measuring would pass its charge into the card.
-double pre_listen(AudioDevice& device, const StreamSpec& spec, double seconds);
+double pre_listen(AudioDevice& device, const StreamSpec& spec, double seconds,
+                  const std::atomic<bool>* cancel = nullptr);
 
 /// Channel match at one frequency from a capture with both inputs on node A (listens for
 /// a charged part first, as measure_once does).

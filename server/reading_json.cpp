@@ -99,4 +99,21 @@ nlohmann::json to_json(const dsp::AnalysisResult& result) {
           {"notes", result.notes}};
 }
 
+nlohmann::json to_json(const MeasureResult& result, const MeasureRequest& request) {
+  nlohmann::json j = to_json(result.reading);
+  j["requested_hz"] = result.requested_hz;
+  j["layout"] = std::string(dsp::layout_name(request.layout));
+  j["rref_ohm"] = request.rref_ohm;
+  j["rref_tolerance_pct"] = request.rref_tolerance_rel * 100;
+  j["channel_match"] = result.channel_match.has_value();
+  j["open_short"] = result.fixture_compensated;
+  j["output_level_fs"] = result.level_fs;
+  j["requested_level_fs"] = request.level_fs;
+  j["advice"] = {{"change", result.advice.better_than_present},
+                 {"rref_ohm", result.advice.rref_ohm},
+                 {"layout", std::string(dsp::layout_name(result.advice.layout))},
+                 {"text", result.advice.text}};
+  return j;
+}
+
 }  // namespace tb

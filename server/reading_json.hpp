@@ -5,10 +5,15 @@
 #include <nlohmann/json.hpp>
 
 #include "dsp/recording_analysis.hpp"
+#include "server/measurement.hpp"
 
 namespace tb {
 
 nlohmann::json to_json(const dsp::ToneReading& reading);
 nlohmann::json to_json(const dsp::AnalysisResult& result);
+/// A reading through a device: the tone reading plus how it was taken (layout, Rref,
+/// requested frequency, output level used, which corrections were applied) and the
+/// Rref/layout advice.
+nlohmann::json to_json(const MeasureResult& result, const MeasureRequest& request);
 
 }  // namespace tb

@@ -87,7 +87,7 @@ SimulatedCard::~SimulatedCard() {
   stop();
 }
 
-DeviceInfo SimulatedCard::info() const {
+DeviceInfo SimulatedCard::describe() {
   return {"simulated", "simulated bench (hidden card faults)", 2,
           1,           {44100, 48000, 96000, 192000},          true};
 }

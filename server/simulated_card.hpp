@@ -48,7 +48,8 @@ class SimulatedCard final : public AudioDevice {
   explicit SimulatedCard(SimulatedBenchConfig config);
   ~SimulatedCard() override;
 
-  DeviceInfo info() const override;
+  DeviceInfo info() const override { return describe(); }
+  static DeviceInfo describe();
   void start(const StreamSpec& spec, DuplexCallback callback) override;
   void stop() override;
   bool running() const override { return running_.load(); }

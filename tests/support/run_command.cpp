@@ -15,16 +15,12 @@ extern char** environ;
 
 namespace tb::test {
 
-namespace {
-
-std::string slurp(const std::string& path) {
+std::string read_text_file(const std::string& path) {
   std::ifstream in(path);
   std::stringstream s;
   s << in.rdbuf();
   return s.str();
 }
-
-}  // namespace
 
 CommandResult run_command(const std::string& program, const std::vector<std::string>& args) {
   const std::string dir = make_temp_dir("cmd");
@@ -49,8 +45,8 @@ CommandResult run_command(const std::string& program, const std::vector<std::str
   waitpid(pid, &status, 0);
   CommandResult result;
   result.exit_code = WIFEXITED(status) ? WEXITSTATUS(status) : 128 + WTERMSIG(status);
-  result.out = slurp(out_path);
-  result.err = slurp(err_path);
+  result.out = read_text_file(out_path);
+  result.err = read_text_file(err_path);
   std::remove(out_path.c_str());
   std::remove(err_path.c_str());
   rmdir(dir.c_str());

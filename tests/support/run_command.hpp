@@ -12,6 +12,9 @@ struct CommandResult {
   std::string out, err;
 };
 
+/// The whole file as text ("" when it cannot be read).
+std::string read_text_file(const std::string& path);
+
 CommandResult run_command(const std::string& program, const std::vector<std::string>& args);
 
 /// run_command on the tonebridge CLI built with the tests.

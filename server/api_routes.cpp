@@ -1,0 +1,49 @@
+#include "server/api_routes.hpp"
+
+#include <httplib.h>
+
+#include "server/api_request.hpp"
+#include "server/engine.hpp"
+#include "server/error.hpp"
+#include "server/http_service.hpp"
+
+namespace tb {
+
+std::vector<Route> api_routes() {
+  std::vector<Route> r;
+  add_service_routes(r);
+  add_reading_routes(r);
+  add_sweep_routes(r);
+  add_calibration_routes(r);
+  add_job_routes(r);
+  return r;
+}
+
+std::int64_t path_id(const httplib::Request& req, int i) {
+  return api::parse_id(req.matches[static_cast<std::size_t>(i)].str(), "the id in the path");
+}
+
+ApiReply task_reply(Engine& engine, const TaskInfo& queued, bool wait, double wait_s,
+                    const std::function<ApiReply(const TaskInfo&)>& on_done) {
+  if (!wait) return ApiReply{202, {{"task", to_json(queued)}}};
+  const auto t = engine.wait(queued.id, wait_s);
+  if (!t || t->ended_at.empty()) return ApiReply{202, {{"task", to_json(t ? *t : queued)}}};
+  if (t->status == "done") return on_done(*t);
+  if (t->status == "cancelled") {
+    auto body =
+        error_body("task.cancelled", "the task was cancelled before it finished", "start it again");
+    body["task"] = to_json(*t);
+    return ApiReply{409, body};
+  }
+  const auto& e = t->error;
+  auto body = error_body(e.value("id", "internal"), e.value("message", ""), e.value("hint", ""));
+  body["task"] = to_json(*t);
+  return ApiReply{status_for(e.value("id", "internal")), body};
+}
+
+void not_found(const std::string& what, std::int64_t id) {
+  throw Error(what + ".not_found", "no " + what + " with id " + std::to_string(id),
+              "list them with GET /api/v1/" + what + "s");
+}
+
+}  // namespace tb

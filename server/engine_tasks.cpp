@@ -1,0 +1,164 @@
+#include "server/engine_tasks.hpp"
+
+#include <cmath>
+#include <sstream>
+
+#include "dsp/part_spec.hpp"
+#include "server/error.hpp"
+
+namespace tb {
+
+namespace {
+
+std::string num(double v) {
+  std::ostringstream s;
+  s << v;
+  return s.str();
+}
+
+void in_range(const std::string& field, double v, double lo, double hi, const std::string& hint) {
+  if (!(v >= lo && v <= hi)) {
+    throw Error("request.out_of_range",
+                field + " must be between " + num(lo) + " and " + num(hi) + ", got " + num(v),
+                hint);
+  }
+}
+
+struct Limits {
+  double f_lo = 10, f_hi = 0, level_cap = 0;
+  explicit Limits(const Settings& s)
+      : f_hi(0.45 * s.number("sample_rate_hz")), level_cap(s.number("level_cap_fs")) {}
+  void freq(const std::string& field, double f) const {
+    in_range(field, f, f_lo, f_hi,
+             "the sound card reaches 10 Hz to 0.45 of its sample rate; raise sample_rate_hz for "
+             "higher frequencies");
+  }
+  void level(const std::optional<double>& l) const {
+    if (!l) return;
+    if (*l > level_cap && *l <= 1) {
+      throw Error("request.level_above_cap",
+                  "level_fs " + num(*l) + " is above the configured cap of " + num(level_cap),
+                  "ask for at most " + num(level_cap) +
+                      "; only the config file or --level-cap-fs can raise the cap");
+    }
+    in_range("level_fs", *l, 1e-4, level_cap, "a fraction of full scale");
+  }
+  static void duration(const std::optional<double>& d) {
+    if (d) in_range("duration_s", *d, 0.1, 30, "seconds of analysed tone per reading");
+  }
+  void reading(const ReadingTask& r) const {
+    if (r.freq_hz) freq("freq_hz", *r.freq_hz);
+    level(r.level_fs);
+    duration(r.duration_s);
+  }
+};
+
+}  // namespace
+
+int SweepTask::points() const {
+  const double decades = std::log10(stop_hz / start_hz);
+  return static_cast<int>(std::ceil(decades * points_per_decade - 1e-9)) + 1;
+}
+
+std::vector<double> SweepTask::frequencies() const {
+  const int n = points();
+  std::vector<double> f(static_cast<std::size_t>(n));
+  for (int i = 0; i < n; ++i) {
+    f[static_cast<std::size_t>(i)] =
+        n == 1 ? start_hz : start_hz * std::pow(stop_hz / start_hz, double(i) / (n - 1));
+  }
+  return f;
+}
+
+std::string task_kind(const TaskRequest& t) {
+  static const char* names[] = {"reading", "watch", "sweep", "calibration", "bench_part"};
+  return names[t.index()];
+}
+
+void validate(const TaskRequest& t, const Settings& s) {
+  const Limits lim(s);
+  if (const auto* r = std::get_if<ReadingTask>(&t)) lim.reading(*r);
+  if (const auto* w = std::get_if<WatchTask>(&t)) {
+    lim.reading(w->each);
+    in_range("per_s", w->per_s, 0.01, s.number("readings_per_s_max"),
+             "readings per second; readings_per_s_max caps it");
+  }
+  if (const auto* sw = std::get_if<SweepTask>(&t)) {
+    lim.freq("start_hz", sw->start_hz);
+    lim.freq("stop_hz", sw->stop_hz);
+    if (!(sw->stop_hz > sw->start_hz)) {
+      throw Error(
+          "request.bad_value",
+          "stop_hz (" + num(sw->stop_hz) + ") must be above start_hz (" + num(sw->start_hz) + ")",
+          "sweeps run upwards: give the lower frequency as start_hz");
+    }
+    in_range("points_per_decade", sw->points_per_decade, 1, 100, "e.g. 10");
+    in_range("points", sw->points(), 2, 400, "use fewer points per decade or a narrower range");
+    lim.level(sw->level_fs);
+    lim.duration(sw->duration_s);
+  }
+  if (const auto* c = std::get_if<CalibrationTask>(&t)) {
+    if (c->kind != "channel_match" && c->kind != "open" && c->kind != "short") {
+      throw Error("request.bad_value", "no calibration step named '" + c->kind + "'",
+                  "use channel_match, open or short");
+    }
+    in_range("number of freqs_hz", static_cast<double>(c->freqs_hz.size()), 1, 64,
+             "list the frequencies you will measure at");
+    for (double f : c->freqs_hz)
+      lim.freq("freqs_hz", f);
+    lim.level(c->level_fs);
+    lim.duration(c->duration_s);
+  }
+  if (const auto* b = std::get_if<BenchPartTask>(&t)) {
+    if (s.text("device") != "simulated") {
+      throw Error("request.not_simulated", "the part can only be changed on the simulated bench",
+                  "on a real jig, change the part by hand");
+    }
+    dsp::parse_part(b->part);  // throws part.* naming the column
+  }
+}
+
+namespace {
+
+void put(nlohmann::json& j, const char* key, const std::optional<double>& v) {
+  if (v) j[key] = *v;
+}
+
+nlohmann::json reading_json(const ReadingTask& r) {
+  nlohmann::json j = nlohmann::json::object();
+  put(j, "freq_hz", r.freq_hz);
+  put(j, "level_fs", r.level_fs);
+  put(j, "duration_s", r.duration_s);
+  if (r.force_kind) j["kind"] = std::string(dsp::part_kind_name(*r.force_kind));
+  if (r.part_id) j["part_id"] = *r.part_id;
+  return j;
+}
+
+}  // namespace
+
+nlohmann::json to_json(const TaskRequest& t) {
+  nlohmann::json j;
+  if (const auto* r = std::get_if<ReadingTask>(&t)) j = reading_json(*r);
+  if (const auto* w = std::get_if<WatchTask>(&t)) {
+    j = reading_json(w->each);
+    j["per_s"] = w->per_s;
+  }
+  if (const auto* sw = std::get_if<SweepTask>(&t)) {
+    j = {{"start_hz", sw->start_hz},
+         {"stop_hz", sw->stop_hz},
+         {"points_per_decade", sw->points_per_decade},
+         {"label", sw->label}};
+    put(j, "level_fs", sw->level_fs);
+    put(j, "duration_s", sw->duration_s);
+    if (sw->part_id) j["part_id"] = *sw->part_id;
+  }
+  if (const auto* c = std::get_if<CalibrationTask>(&t)) {
+    j = {{"kind", c->kind}, {"freqs_hz", c->freqs_hz}};
+    put(j, "level_fs", c->level_fs);
+    put(j, "duration_s", c->duration_s);
+  }
+  if (const auto* b = std::get_if<BenchPartTask>(&t)) j = {{"part", b->part}};
+  return j;
+}
+
+}  // namespace tb

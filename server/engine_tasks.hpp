@@ -1,0 +1,70 @@
+// The work the measurement engine accepts, as plain requests. Each is validated by
+// validate() against the service's limits before it is queued, so a queued task can only
+// fail for reasons of the bench (device, part, signal), never of the request.
+#pragma once
+
+#include <cstdint>
+#include <optional>
+#include <string>
+#include <variant>
+#include <vector>
+
+#include <nlohmann/json.hpp>
+
+#include "dsp/impedance.hpp"
+#include "server/settings.hpp"
+
+namespace tb {
+
+/// One reading at the settings' layout and Rref. Unset fields take the settings' values.
+struct ReadingTask {
+  std::optional<double> freq_hz, level_fs, duration_s;
+  std::optional<dsp::PartKind> force_kind;
+  std::optional<std::int64_t> part_id;
+};
+
+/// Readings one after another, at most per_s per second, until cancelled.
+struct WatchTask {
+  ReadingTask each;
+  double per_s = 1;
+};
+
+/// Stepped sine, log spaced from start_hz to stop_hz inclusive.
+struct SweepTask {
+  double start_hz = 100, stop_hz = 10000;
+  int points_per_decade = 10;
+  std::optional<double> level_fs, duration_s;
+  std::string label;
+  std::optional<std::int64_t> part_id;
+  int points() const;  ///< number of frequencies in the plan
+  std::vector<double> frequencies() const;
+};
+
+/// One calibration step at a list of frequencies: "channel_match" (both inputs on node A),
+/// "open" (nothing in the jig), "short" (the jig's clips together).
+struct CalibrationTask {
+  std::string kind;
+  std::vector<double> freqs_hz;
+  std::optional<double> level_fs, duration_s;
+};
+
+/// Simulated bench only: take the part off the jig and put this one on (part_spec.hpp).
+struct BenchPartTask {
+  std::string part;
+};
+
+using TaskRequest = std::variant<ReadingTask, WatchTask, SweepTask, CalibrationTask, BenchPartTask>;
+
+std::string task_kind(const TaskRequest& t);  ///< "reading", "watch", "sweep", ...
+
+/// Throws tb::Error request.out_of_range / request.bad_value naming the field, the value
+/// and the allowed range: frequencies inside 10 Hz .. 0.45 fs, levels above 0 and at most
+/// level_cap_fs, durations 0.1 .. 30 s, 1 .. 100 points per decade, at most 400 points,
+/// watch rate above 0 and at most readings_per_s_max, known calibration kinds, 1 .. 64
+/// calibration frequencies, a part description that parses.
+void validate(const TaskRequest& t, const Settings& s);
+
+/// The request as JSON (for task lists and the store).
+nlohmann::json to_json(const TaskRequest& t);
+
+}  // namespace tb
