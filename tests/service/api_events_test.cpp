@@ -17,11 +17,10 @@ namespace {
 // Collects the raw event stream in a thread until told to stop.
 class EventListener {
  public:
-  explicit EventListener(int port) {
-    thread_ = std::thread([this, port] {
-      httplib::Client client("127.0.0.1", port);
-      client.set_read_timeout(60, 0);
-      client.Get("/api/v1/events", [this](const char* data, std::size_t len) {
+  explicit EventListener(int port) : client_("127.0.0.1", port) {
+    client_.set_read_timeout(60, 0);
+    thread_ = std::thread([this] {
+      client_.Get("/api/v1/events", [this](const char* data, std::size_t len) {
         std::lock_guard lock(m_);
         text_.append(data, len);
         return !stop_.load();
@@ -30,6 +29,7 @@ class EventListener {
   }
   ~EventListener() {
     stop_ = true;
+    client_.stop();  // ends the read now instead of at the next event or ping
     thread_.join();
   }
   std::string text() const {
@@ -46,6 +46,7 @@ class EventListener {
   }
 
  private:
+  httplib::Client client_;
   mutable std::mutex m_;
   std::string text_;
   std::atomic<bool> stop_{false};
@@ -63,11 +64,12 @@ TEST_CASE("the event stream greets, then carries state changes, readings and swe
   REQUIRE(svc.post("/api/v1/sweeps",
                    {{"start_hz", 200}, {"stop_hz", 2000}, {"points_per_decade", 2}, {"wait", true}})
               .status == 201);
-  REQUIRE(eventually([&] { return events.count("sweep.end") == 1; }, 20));
+  // The engine reports idle after the sweep's last event: wait for both state changes.
+  REQUIRE(eventually([&] { return events.count("sweep.end") == 1 && events.count("state") >= 4; },
+                     20));
   CHECK(events.count("reading") == 1);
   CHECK(events.count("sweep.begin") == 1);
   CHECK(events.count("sweep.point") == 3);
-  CHECK(events.count("state") >= 4);  // reading, idle, sweeping, idle
   CHECK(events.text().find("\"state\":\"sweeping\"") != std::string::npos);
   // Each event has an id line and one data line of JSON.
   CHECK(events.text().find("id: 1\nevent: ") != std::string::npos);
