@@ -22,8 +22,7 @@ TEST_CASE("events reach every stream in order as Server-Sent Events", "[event_bu
   CHECK(bus.published() == 2);
 }
 
-TEST_CASE("a stream that falls behind is dropped without holding back the others",
-          "[event_bus]") {
+TEST_CASE("a stream that falls behind is dropped without holding back the others", "[event_bus]") {
   EventBus bus(4);
   auto slow = bus.subscribe(), fast = bus.subscribe();
   std::string m;
@@ -34,7 +33,8 @@ TEST_CASE("a stream that falls behind is dropped without holding back the others
   CHECK_FALSE(fast->closed());
   // The slow one gets what it had queued, then ends.
   int drained = 0;
-  while (slow->next(m, 10)) ++drained;
+  while (slow->next(m, 10))
+    ++drained;
   CHECK(drained == static_cast<int>(EventBus::kBacklog));
   CHECK(slow->closed());
 }

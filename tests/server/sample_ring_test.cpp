@@ -26,8 +26,7 @@ TEST_CASE("the sample ring keeps order across its wrap and counts what did not f
   CHECK(ring.pop(rest) == 0);
 }
 
-TEST_CASE("one producer and one consumer thread pass a million samples intact",
-          "[sample_ring]") {
+TEST_CASE("one producer and one consumer thread pass a million samples intact", "[sample_ring]") {
   SampleRing ring(1024);
   constexpr int kTotal = 1'000'000;
   std::thread producer([&] {
@@ -35,7 +34,8 @@ TEST_CASE("one producer and one consumer thread pass a million samples intact",
     int next = 0;
     while (next < kTotal) {
       int n = 0;
-      for (; n < 64 && next + n < kTotal; ++n) block[n] = static_cast<float>((next + n) % 4096);
+      for (; n < 64 && next + n < kTotal; ++n)
+        block[n] = static_cast<float>((next + n) % 4096);
       std::size_t pushed = 0;
       while (pushed < static_cast<std::size_t>(n))
         pushed += ring.push(std::span<const float>(block + pushed, n - pushed));

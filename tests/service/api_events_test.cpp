@@ -65,8 +65,8 @@ TEST_CASE("the event stream greets, then carries state changes, readings and swe
                    {{"start_hz", 200}, {"stop_hz", 2000}, {"points_per_decade", 2}, {"wait", true}})
               .status == 201);
   // The engine reports idle after the sweep's last event: wait for both state changes.
-  REQUIRE(eventually([&] { return events.count("sweep.end") == 1 && events.count("state") >= 4; },
-                     20));
+  REQUIRE(
+      eventually([&] { return events.count("sweep.end") == 1 && events.count("state") >= 4; }, 20));
   CHECK(events.count("reading") == 1);
   CHECK(events.count("sweep.begin") == 1);
   CHECK(events.count("sweep.point") == 3);
