@@ -66,7 +66,7 @@ TEST_CASE("on the LAN a token is needed, shown once, and a view token only reads
             .status == 403);
 }
 
-TEST_CASE("a restart keeps the token without showing it; --new-token replaces it", "[service]") {
+TEST_CASE("a restart keeps the token without showing it and --new-token replaces it", "[service]") {
   const std::string lan = tb::test::lan_address();
   REQUIRE_FALSE(lan.empty());
   const std::string dir = tb::test::make_temp_dir("tok");
