@@ -8,7 +8,6 @@
 #include <unistd.h>
 
 #include "server/access_token.hpp"
-#include "server/store.hpp"
 
 namespace tb {
 
@@ -64,7 +63,13 @@ std::vector<std::string> local_host_names(const std::string& listen_address) {
 }
 
 AccessControl::AccessControl(const Store& store, bool lan, std::vector<std::string> hosts, int port)
-    : store_(store), lan_(lan), hosts_(std::move(hosts)), port_(port) {}
+    : store_(store), lan_(lan), hosts_(std::move(hosts)), port_(port) {
+  reload_tokens();
+}
+
+void AccessControl::reload_tokens() {
+  tokens_ = store_.tokens();
+}
 
 bool AccessControl::host_allowed(const std::string& host_header) const {
   const auto [host, port] = split_host(lower(host_header));
@@ -73,7 +78,7 @@ bool AccessControl::host_allowed(const std::string& host_header) const {
 }
 
 std::optional<std::string> AccessControl::token_role(const std::string& token) const {
-  for (const auto& t : store_.tokens())
+  for (const auto& t : tokens_)
     if (token_matches(token, t.hash_hex)) return t.role;
   return std::nullopt;
 }

@@ -15,9 +15,9 @@
 #include <string>
 #include <vector>
 
-namespace tb {
+#include "server/store.hpp"
 
-class Store;
+namespace tb {
 
 struct AccessDecision {
   int status = 0;  ///< 0: allowed; else 401 or 403
@@ -34,6 +34,9 @@ class AccessControl {
   AccessDecision check(const std::string& remote_addr, const std::string& host,
                        const std::string& origin, const std::string& token, bool changes) const;
 
+  /// Reads the token hashes from the store again (after new tokens were made at start);
+  /// checks use this copy, so a request never waits on the database.
+  void reload_tokens();
   /// The port the service really listens on (known only after binding when it was 0).
   void set_port(int port) { port_ = port; }
   const std::vector<std::string>& hosts() const { return hosts_; }
@@ -44,6 +47,7 @@ class AccessControl {
   std::optional<std::string> token_role(const std::string& token) const;
 
   const Store& store_;
+  std::vector<TokenRecord> tokens_;
   bool lan_;
   std::vector<std::string> hosts_;
   int port_;

@@ -32,15 +32,6 @@ void check_part(const Store& store, const std::optional<std::int64_t>& part_id) 
   if (part_id && !store.part(*part_id)) not_found("part", *part_id);
 }
 
-std::string format_of(const httplib::Request& req) {
-  const auto f = req.has_param("format") ? req.get_param_value("format") : "json";
-  if (f != "json" && f != "csv") {
-    throw Error("request.bad_value", "format must be csv or json, got '" + f + "'",
-                "add ?format=csv or ?format=json");
-  }
-  return f;
-}
-
 }  // namespace
 
 void add_reading_routes(std::vector<Route>& r) {
@@ -86,7 +77,7 @@ void add_reading_routes(std::vector<Route>& r) {
   r.push_back({"GET", "/api/v1/readings/export", Access::read,
                "saved readings as CSV or JSON (?format=csv&limit=1000)",
                [](ApiContext& ctx, const httplib::Request& req) {
-                 const auto format = format_of(req);
+                 const auto format = export_format(req);
                  const int limit =
                      api::query_int(req.get_param_value("limit"), "limit", 1000, 1, 100000);
                  const auto list = ctx.store.readings(limit);

@@ -41,6 +41,15 @@ ApiReply task_reply(Engine& engine, const TaskInfo& queued, bool wait, double wa
   return ApiReply{status_for(e.value("id", "internal")), body};
 }
 
+std::string export_format(const httplib::Request& req) {
+  const auto f = req.has_param("format") ? req.get_param_value("format") : "json";
+  if (f != "json" && f != "csv") {
+    throw Error("request.bad_value", "format must be csv or json, got '" + f + "'",
+                "add ?format=csv or ?format=json");
+  }
+  return f;
+}
+
 void not_found(const std::string& what, std::int64_t id) {
   throw Error(what + ".not_found", "no " + what + " with id " + std::to_string(id),
               "list them with GET /api/v1/" + what + "s");

@@ -78,6 +78,9 @@ std::int64_t path_id(const httplib::Request& req, int i = 1);
 ApiReply task_reply(Engine& engine, const struct TaskInfo& queued, bool wait, double wait_s,
                     const std::function<ApiReply(const struct TaskInfo&)>& on_done);
 
+/// The ?format= of an export: "json" (the default) or "csv"; throws request.bad_value.
+std::string export_format(const httplib::Request& req);
+
 /// A 404 with id `what`.not_found, e.g. not_found("sweep", 7).
 [[noreturn]] void not_found(const std::string& what, std::int64_t id);
 

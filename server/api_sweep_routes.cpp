@@ -115,14 +115,10 @@ void add_sweep_routes(std::vector<Route>& r) {
                  const auto id = path_id(req);
                  const auto s = need_sweep(ctx.store, id);
                  const auto points = ctx.store.sweep_points(id);
-                 const auto f = req.has_param("format") ? req.get_param_value("format") : "json";
+                 const auto f = export_format(req);
                  const std::string name = "sweep-" + std::to_string(id);
                  if (f == "csv")
                    return ApiReply::file(sweep_csv(s, points), "text/csv", name + ".csv");
-                 if (f != "json") {
-                   throw Error("request.bad_value", "format must be csv or json, got '" + f + "'",
-                               "add ?format=csv or ?format=json");
-                 }
                  auto j = to_json(s);
                  j["columns"] = sweep_columns(points);
                  nlohmann::json pts = nlohmann::json::array();

@@ -204,7 +204,10 @@ int run_service(const std::vector<std::string>& argv, std::ostream& out, std::os
     const std::string shown_host =
         lan ? (listen == "0.0.0.0" ? access.hosts().back() : listen) : std::string("127.0.0.1");
     const std::string url = "http://" + shown_host + ":" + std::to_string(service.port()) + "/";
-    if (lan) prepare_tokens(store, flags, url, out);
+    if (lan) {
+      prepare_tokens(store, flags, url, out);
+      access.reload_tokens();
+    }
     out << kSafety << "tonebridged " << TB_VERSION << ": "
         << (initial.text("device") == "simulated" ? "simulated bench" : initial.text("device"))
         << ", database " << store.path().string() << "\n"
