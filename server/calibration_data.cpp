@@ -89,9 +89,10 @@ Corrections find_corrections(const Store& store, const CalibrationKey& key, doub
     out.match = m;
     out.used["channel_match"] = used(*cm);
   } else {
-    out.missing.push_back(
-        "no channel match at this frequency, layout and Rref: the two inputs' mismatch is "
-        "not divided out (take the channel-match calibration)");
+    out.missing.push_back({"calibration.no_channel_match",
+                           "no channel match at this frequency, layout and Rref: the two "
+                           "inputs' mismatch is not divided out",
+                           "take the channel-match calibration"});
   }
   const auto open = latest("open");
   const auto shorted = latest("short");
@@ -106,9 +107,10 @@ Corrections find_corrections(const Store& store, const CalibrationKey& key, doub
     out.used["open"] = used(*open);
     out.used["short"] = used(*shorted);
   } else {
-    out.missing.push_back(
-        "no open/short compensation at this frequency, layout and Rref: the leads and the "
-        "card's input loading are not corrected (take the open and short calibrations)");
+    out.missing.push_back({"calibration.no_open_short",
+                           "no open/short compensation at this frequency, layout and Rref: the "
+                           "leads and the card's input loading are not corrected",
+                           "take the open and short calibrations"});
   }
   return out;
 }

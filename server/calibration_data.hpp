@@ -40,7 +40,7 @@ struct Corrections {
   std::optional<ChannelMatch> match;
   std::optional<dsp::FixtureStandards> fixture;
   nlohmann::json used = nlohmann::json::object();  ///< {"channel_match":{"id":..,"taken_at":..}}
-  std::vector<std::string> missing;                ///< one sentence per missing correction
+  std::vector<ReadingNotice> missing;              ///< one per missing correction
 };
 
 /// The newest channel-match, open and short calibrations for `key` that hold a point at

@@ -72,7 +72,8 @@ nlohmann::json Engine::run_reading(const ReadingTask& t, const Settings& s, cons
   e.data["task_id"] = task_id;
   e.data["device"] = device_id();
   e.data["corrections"] = corr.used;
-  e.data["warnings"] = corr.missing;
+  for (const auto& n : corr.missing)
+    e.data["warnings"].push_back(to_json(n));
   if (t.part_id) e.data["part_id"] = *t.part_id;
   if (bench_) e.data["bench_part"] = bench_part_;
   e.data["taken_at"] = utc_now_iso();
@@ -138,7 +139,8 @@ nlohmann::json Engine::run_sweep(const SweepTask& t, const Settings& s, TaskInfo
       const auto result = measure_once(*device_, req, corr.match, corr.fixture);
       point.data["reading"] = to_json(result, req);
       point.data["reading"]["corrections"] = corr.used;
-      point.data["reading"]["warnings"] = corr.missing;
+      for (const auto& n : corr.missing)
+        point.data["reading"]["warnings"].push_back(to_json(n));
     } catch (...) {
       const ErrorInfo e = describe_current_error();
       const bool fatal = e.id == "task.cancelled" || e.id == "part.charged" ||

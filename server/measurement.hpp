@@ -42,6 +42,14 @@ struct ChannelMatch {
   double u_gain_rel = 0, u_phase_rad = 0;
 };
 
+/// Something the technician should know about one reading: a correction it lacks, a
+/// signal problem, a level that was lowered. id is stable (docs/errors.md lists them).
+struct ReadingNotice {
+  std::string id;
+  std::string message;  ///< what happened
+  std::string hint;     ///< what to do
+};
+
 struct Advice {
   double rref_ohm = 0;  ///< the reference of the set nearest |Z| (log scale)
   dsp::Layout layout = dsp::Layout::part_low;
@@ -57,6 +65,7 @@ struct MeasureResult {
   Advice advice;
   double pre_listen_peak_fs = 0;  ///< largest input sample before the tone started
   double level_fs = 0;            ///< output level used (lowered from the request if it clipped)
+  std::vector<ReadingNotice> notices;
 };
 
 /// Listens to both inputs for `seconds` with the output silent; throws tb::Error

@@ -113,7 +113,14 @@ nlohmann::json to_json(const MeasureResult& result, const MeasureRequest& reques
                  {"rref_ohm", result.advice.rref_ohm},
                  {"layout", std::string(dsp::layout_name(result.advice.layout))},
                  {"text", result.advice.text}};
+  j["warnings"] = nlohmann::json::array();
+  for (const auto& n : result.notices)
+    j["warnings"].push_back(to_json(n));
   return j;
+}
+
+nlohmann::json to_json(const ReadingNotice& notice) {
+  return {{"id", notice.id}, {"message", notice.message}, {"hint", notice.hint}};
 }
 
 }  // namespace tb

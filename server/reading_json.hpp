@@ -14,6 +14,9 @@ nlohmann::json to_json(const dsp::AnalysisResult& result);
 /// A reading through a device: the tone reading plus how it was taken (layout, Rref,
 /// requested frequency, output level used, which corrections were applied) and the
 /// Rref/layout advice.
+/// "warnings" holds result.notices as {"id","message","hint"} objects; callers append
+/// their own (missing corrections) with to_json(notice).
 nlohmann::json to_json(const MeasureResult& result, const MeasureRequest& request);
+nlohmann::json to_json(const ReadingNotice& notice);
 
 }  // namespace tb

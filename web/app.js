@@ -35,7 +35,7 @@ function show(r) {
     (r.advice && r.advice.change ? `. Advice: ${r.advice.text}` : '');
   $('warnings').replaceChildren(...(r.warnings || []).map((w) => {
     const li = document.createElement('li');
-    li.textContent = w;
+    li.textContent = w.hint ? `${w.message}: ${w.hint}` : w.message;
     return li;
   }));
 }
