@@ -189,14 +189,7 @@ void SimulatedCard::render(std::span<const float> out, std::span<float> in_a,
     }
     out_phase_ = std::min(out_phase_ + step_ratio, static_cast<double>(frame_));
     dac += card.out_h2 * dac * dac + card.out_h3 * dac * dac * dac;
-    double v_src = dac * card.dac_full_scale_v;
-    if (card.out_current_limit_a > 0) {
-      // The output stage cannot push more than its current limit: the source voltage is
-      // held within limit * Rout of the node it feeds (a compliance limit).
-      const double v_o = solver_->voltage(node_o);
-      const double swing = card.out_current_limit_a * std::max(card.out_resistance_ohm, 1e-6);
-      v_src = std::clamp(v_src, v_o - swing, v_o + swing);
-    }
+    const double v_src = dac * card.dac_full_scale_v;
     // The DAC's reconstruction filter gives the source a band-limited value at every one of
     // the circuit's steps in this sample period: no images for the circuit to respond to.
     std::rotate(dac_hist_.rbegin(), dac_hist_.rbegin() + 1, dac_hist_.rend());
@@ -206,6 +199,16 @@ void SimulatedCard::render(std::span<const float> out, std::span<float> in_a,
       for (std::size_t j = 0; j < kTapsPerPhase; ++j)
         u += dac_taps_[k + j * kOversample] * dac_hist_[j];
       fine_[k] = u;
+    }
+    if (card.out_current_limit_a > 0) {
+      // The output stage cannot push more than its current limit: the band-limited source
+      // is held within limit * Rout of the node it feeds (a compliance limit). Applied
+      // after the reconstruction filter, whose delay would otherwise make the raw sample
+      // and the node disagree by far more than any current flows.
+      const double v_o = solver_->voltage(node_o);
+      const double swing = card.out_current_limit_a * std::max(card.out_resistance_ohm, 1e-6);
+      for (double& u : fine_)
+        u = std::clamp(u, v_o - swing, v_o + swing);
     }
     // Node voltages on the fine grid (kReads per sample) into each input's ring.
     const std::size_t per_read = kOversample / kReads;
