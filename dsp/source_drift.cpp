@@ -9,8 +9,7 @@ DriftCheck check_source_drift(const SourceReference& ref, double a_reading,
                               std::complex<double> y_reading, double tolerance_rel,
                               double max_loading_rel) {
   DriftCheck out;
-  if (!(ref.a_open > 0) || !(ref.a_short > 0) || !(a_reading > 0) || ref.y_short == 0.0)
-    return out;
+  if (!(ref.a_open > 0) || !(ref.a_short > 0) || !(a_reading > 0) || ref.y_short == 0.0) return out;
   const double s = std::max(ref.a_open / ref.a_short, 1.0);
   const std::complex<double> rho = y_reading / ref.y_short;
   // x = s e^{i psi} - 1 on the circle |1 + x| = s; arg x = 0 at psi = 0 and -90° where

@@ -1,6 +1,10 @@
 #include "server/calibration_data.hpp"
 
 #include <cmath>
+#include <cstdio>
+#include <ctime>
+#include <limits>
+#include <sstream>
 
 #include "server/error.hpp"
 
@@ -74,12 +78,78 @@ nlohmann::json impedance_point(double freq_hz, const dsp::UncertainComplex& z) {
   return {{"freq_hz", freq_hz}, {"z", to_json(z)}};
 }
 
+double hours_between(const std::string& earlier, const std::string& later) {
+  auto parse = [](const std::string& t) {
+    std::tm tm{};
+    int ms = 0;
+    if (std::sscanf(t.c_str(), "%d-%d-%dT%d:%d:%d.%dZ", &tm.tm_year, &tm.tm_mon, &tm.tm_mday,
+                    &tm.tm_hour, &tm.tm_min, &tm.tm_sec, &ms) < 6)
+      return std::numeric_limits<double>::quiet_NaN();
+    tm.tm_year -= 1900;
+    tm.tm_mon -= 1;
+    return static_cast<double>(timegm(&tm)) + ms / 1000.0;
+  };
+  return (parse(later) - parse(earlier)) / 3600;
+}
+
+namespace {
+
+std::string describe_key(const CalibrationRecord& c) {
+  std::ostringstream o;
+  o << c.device << ", " << c.sample_rate_hz / 1000 << " kHz";
+  if (c.layout != kAnyLayout) o << ", " << c.layout << ", Rref " << c.rref_ohm << " ohm";
+  return o.str();
+}
+
+// The newest record of `kind` for this device whose set-up differs from `key`, if any:
+// it is not applied, and the reading says so (a calibration of another rate, layout or
+// Rref would correct the wrong thing).
+std::optional<CalibrationRecord> other_setup(const std::vector<CalibrationRecord>& recent,
+                                             const std::string& kind, const CalibrationKey& key) {
+  for (const auto& c : recent) {
+    if (c.kind != kind) continue;
+    const bool same =
+        c.device == key.device && c.sample_rate_hz == key.sample_rate_hz &&
+        (c.layout == kAnyLayout || (c.layout == key.layout && c.rref_ohm == key.rref_ohm));
+    if (!same) return c;
+    return std::nullopt;  // the newest of this kind matches: nothing to report
+  }
+  return std::nullopt;
+}
+
+double a_per_fs(const nlohmann::json& point) {
+  return point.value("a_per_fs", 0.0);
+}
+
+}  // namespace
+
 Corrections find_corrections(const Store& store, const CalibrationKey& key, double freq_hz,
-                             double reconnect_half_width_ohm) {
+                             const CorrectionPolicy& policy) {
   Corrections out;
+  const auto recent = store.calibrations(200);
   auto latest = [&](const char* kind) {
     return store.latest_calibration(kind, key.device, key.sample_rate_hz, key.layout, key.rref_ohm);
   };
+  auto note_use = [&](const char* kind, const CalibrationRecord& c) {
+    out.used[kind] = used(c);
+    const double age_h = hours_between(c.taken_at, policy.now_iso);
+    if (std::isfinite(age_h) && age_h > policy.max_age_h) {
+      out.missing.push_back({"calibration.stale",
+                             std::string("the ") + kind + " calibration is " +
+                                 std::to_string(static_cast<int>(age_h)) + " hours old (limit " +
+                                 std::to_string(static_cast<int>(policy.max_age_h)) + " h)",
+                             std::string("take the ") + kind +
+                                 " calibration again (calibration_max_age_h sets the limit)"});
+    }
+  };
+  auto note_missing = [&](const char* kind, ReadingNotice notice) {
+    if (const auto other = other_setup(recent, kind, key)) {
+      notice.message += "; the newest " + std::string(kind) + " calibration (" + other->taken_at +
+                        ") was taken for " + describe_key(*other) + " and is not applied here";
+    }
+    out.missing.push_back(std::move(notice));
+  };
+
   if (const auto cm = latest("channel_match"); cm && point_at(*cm, freq_hz)) {
     const auto& p = *point_at(*cm, freq_hz);
     ChannelMatch m;
@@ -87,12 +157,13 @@ Corrections find_corrections(const Store& store, const CalibrationKey& key, doub
     m.u_gain_rel = p.value("u_gain_rel", 0.0);
     m.u_phase_rad = p.value("u_phase_rad", 0.0);
     out.match = m;
-    out.used["channel_match"] = used(*cm);
+    note_use("channel_match", *cm);
   } else {
-    out.missing.push_back({"calibration.no_channel_match",
-                           "no channel match at this frequency, layout and Rref: the two "
-                           "inputs' mismatch is not divided out",
-                           "take the channel-match calibration"});
+    note_missing("channel_match",
+                 {"calibration.no_channel_match",
+                  "no channel match at this frequency, layout and Rref: the two inputs' "
+                  "mismatch is not divided out",
+                  "take the channel-match calibration"});
   }
   const auto open = latest("open");
   const auto shorted = latest("short");
@@ -102,17 +173,47 @@ Corrections find_corrections(const Store& store, const CalibrationKey& key, doub
     dsp::FixtureStandards s;
     s.open = uncertain_complex_from_json(po->at("z"));
     s.short_ = uncertain_complex_from_json(ps->at("z"));
-    s.reconnect_half_width_ohm = reconnect_half_width_ohm;
+    s.reconnect_half_width_ohm = policy.reconnect_half_width_ohm;
     out.fixture = s;
-    out.used["open"] = used(*open);
-    out.used["short"] = used(*shorted);
+    note_use("open", *open);
+    note_use("short", *shorted);
+    if (a_per_fs(*po) > 0 && a_per_fs(*ps) > 0) {
+      out.source =
+          dsp::SourceReference{a_per_fs(*po), a_per_fs(*ps), 1.0 / (key.rref_ohm + s.short_.value)};
+    }
   } else {
-    out.missing.push_back({"calibration.no_open_short",
-                           "no open/short compensation at this frequency, layout and Rref: the "
-                           "leads and the card's input loading are not corrected",
-                           "take the open and short calibrations"});
+    note_missing(open && po ? "short" : "open",
+                 {"calibration.no_open_short",
+                  "no open/short compensation at this frequency, layout and Rref: the leads "
+                  "and the card's input loading are not corrected",
+                  "take the open and short calibrations"});
+  }
+  if (const auto level =
+          store.latest_calibration("level", key.device, key.sample_rate_hz, kAnyLayout, 0)) {
+    const double v = level->body.value("volts_per_fs", 0.0);
+    if (v > 0) {
+      out.volts_per_fs = v;
+      note_use("level", *level);
+    }
   }
   return out;
+}
+
+void check_level_drift(const Corrections& corrections, const MeasureResult& result,
+                       const MeasureRequest& request, std::vector<ReadingNotice>& notices) {
+  if (!corrections.source || !(result.level_fs > 0)) return;
+  const auto y = 1.0 / (request.rref_ohm + result.reading.z.value);
+  const auto c =
+      dsp::check_source_drift(*corrections.source, result.reading.level_a / result.level_fs, y);
+  if (!c.drifted) return;
+  std::ostringstream m;
+  m.precision(2);
+  m << std::fixed << "the level at node A is " << 20 * std::log10(1 + c.change_rel)
+    << " dB from the open step's, more than the jig's loading explains: a gain or volume "
+       "control was moved since the calibration";
+  notices.push_back({"calibration.drifted", m.str(),
+                     "put the control back, or take the calibrations again (or use "
+                     "swap-and-average readings, which need no channel match)"});
 }
 
 }  // namespace tb

@@ -224,9 +224,9 @@ void Engine::execute(Queued& q) {
     status_.task = info;
   }
   update_task(info);
-  static const EngineState states[] = {EngineState::reading, EngineState::watching,
+  static const EngineState states[] = {EngineState::reading,  EngineState::watching,
                                        EngineState::sweeping, EngineState::calibrating,
-                                       EngineState::reading};
+                                       EngineState::reading,  EngineState::calibrating};
   set_state(states[q.request.index()]);
   bool lost = false;
   try {
@@ -242,6 +242,8 @@ void Engine::execute(Queued& q) {
       info.result = run_calibration(*c, s, info);
     } else if (const auto* b = std::get_if<BenchPartTask>(&q.request)) {
       info.result = run_bench_part(*b);
+    } else if (const auto* tone = std::get_if<ToneTask>(&q.request)) {
+      info.result = run_tone(*tone, s, info);
     }
     info.status = "done";
   } catch (...) {

@@ -107,6 +107,7 @@ class Engine {
   nlohmann::json run_sweep(const SweepTask& t, const Settings& s, TaskInfo& info);
   nlohmann::json run_calibration(const CalibrationTask& t, const Settings& s, TaskInfo& info);
   nlohmann::json run_bench_part(const BenchPartTask& t);
+  nlohmann::json run_tone(const ToneTask& t, const Settings& s, TaskInfo& info);
   void rewire_bench(const Settings& s);
 
   std::unique_ptr<AudioDevice> device_;

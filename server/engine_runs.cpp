@@ -8,6 +8,7 @@
 #include "dsp/part_spec.hpp"
 #include "server/bench_procedure.hpp"
 #include "server/calibration_data.hpp"
+#include "server/capture.hpp"
 #include "server/engine.hpp"
 #include "server/error.hpp"
 #include "server/error_report.hpp"
@@ -42,6 +43,34 @@ CalibrationKey key_for(const std::string& device, const MeasureRequest& r) {
   return {device, r.stream.sample_rate_hz, std::string(dsp::layout_name(r.layout)), r.rref_ohm};
 }
 
+// The stored corrections for one reading; a level calibration replaces the
+// full_scale_vrms setting.
+Corrections corrections_for(const Store* store, const std::string& device, MeasureRequest& req,
+                            const Settings& s, double reconnect_half_width_ohm) {
+  if (!store) return {};
+  Corrections c = find_corrections(*store, key_for(device, req), req.freq_hz,
+                                   {.reconnect_half_width_ohm = reconnect_half_width_ohm,
+                                    .max_age_h = s.number("calibration_max_age_h"),
+                                    .now_iso = utc_now_iso()});
+  if (c.volts_per_fs) req.volts_per_fs = *c.volts_per_fs;
+  return c;
+}
+
+// The reading's JSON with what the stored corrections add: which were used, which are
+// missing or old, whether the card's level moved since, and where its volts come from.
+nlohmann::json reading_json(MeasureResult& result, const MeasureRequest& req,
+                            const Corrections& corr) {
+  check_level_drift(corr, result, req, result.notices);
+  auto j = to_json(result, req);
+  j["corrections"] = corr.used;
+  for (const auto& n : corr.missing)
+    j["warnings"].push_back(to_json(n));
+  j["level_source"] = corr.volts_per_fs      ? "calibration"
+                      : req.volts_per_fs > 0 ? "setting"
+                                             : "unknown";
+  return j;
+}
+
 nlohmann::json error_json(const ErrorInfo& e) {
   return {{"id", e.id}, {"message", e.message}, {"hint", e.hint}};
 }
@@ -62,18 +91,12 @@ nlohmann::json Engine::run_reading(const ReadingTask& t, const Settings& s, cons
   auto req = request_from(s, t.freq_hz, t.level_fs, t.duration_s);
   req.force_kind = t.force_kind;
   req.cancel = &cancel_current_;
-  Corrections corr;
-  if (store_)
-    corr =
-        find_corrections(*store_, key_for(device_id(), req), req.freq_hz, kReconnectHalfWidthOhm);
-  const auto result = measure_once(*device_, req, corr.match, corr.fixture);
-  EngineEvent e{"reading", to_json(result, req)};
+  const Corrections corr = corrections_for(store_, device_id(), req, s, kReconnectHalfWidthOhm);
+  auto result = measure_once(*device_, req, corr.match, corr.fixture);
+  EngineEvent e{"reading", reading_json(result, req, corr)};
   e.data["origin"] = origin;
   e.data["task_id"] = task_id;
   e.data["device"] = device_id();
-  e.data["corrections"] = corr.used;
-  for (const auto& n : corr.missing)
-    e.data["warnings"].push_back(to_json(n));
   if (t.part_id) e.data["part_id"] = *t.part_id;
   if (bench_) e.data["bench_part"] = bench_part_;
   e.data["taken_at"] = utc_now_iso();
@@ -132,15 +155,9 @@ nlohmann::json Engine::run_sweep(const SweepTask& t, const Settings& s, TaskInfo
     req.cancel = &cancel_current_;
     EngineEvent point{"sweep.point", {{"sweep_id", sweep_id}, {"index", i}, {"freq_hz", freqs[i]}}};
     try {
-      Corrections corr;
-      if (store_)
-        corr = find_corrections(*store_, key_for(device_id(), req), req.freq_hz,
-                                kReconnectHalfWidthOhm);
-      const auto result = measure_once(*device_, req, corr.match, corr.fixture);
-      point.data["reading"] = to_json(result, req);
-      point.data["reading"]["corrections"] = corr.used;
-      for (const auto& n : corr.missing)
-        point.data["reading"]["warnings"].push_back(to_json(n));
+      const Corrections corr = corrections_for(store_, device_id(), req, s, kReconnectHalfWidthOhm);
+      auto result = measure_once(*device_, req, corr.match, corr.fixture);
+      point.data["reading"] = reading_json(result, req, corr);
     } catch (...) {
       const ErrorInfo e = describe_current_error();
       const bool fatal = e.id == "task.cancelled" || e.id == "part.charged" ||
@@ -199,13 +216,16 @@ nlohmann::json Engine::run_calibration(const CalibrationTask& t, const Settings&
   jig.layout = *dsp::parse_layout(s.text("layout"));
   jig.rref_ohm = s.number("rref_ohm");
   // The simulated bench makes the step's connection itself; on a real jig the user has
-  // made it before asking for the step.
+  // made it before asking for the step (calibration_guide.hpp says what to connect).
   if (bench_) {
     auto wiring = jig;
     wiring.inputs_on_node_a = t.kind == "channel_match";
-    bench_->reconnect(wiring, t.kind == "open"    ? open_jig()
-                              : t.kind == "short" ? shorted_jig()
-                                                  : part);
+    const dsp::Netlist load = {
+        {{dsp::ElementKind::resistor, "load", "p", "n", t.load_ohm.value_or(1000)}}};
+    bench_->reconnect(wiring, t.kind == "open" || t.kind == "level" ? open_jig()
+                              : t.kind == "short"                   ? shorted_jig()
+                              : t.kind == "load"                    ? load
+                                                                    : part);
   }
   nlohmann::json points = nlohmann::json::array();
   MeasureRequest key_req;
@@ -214,20 +234,31 @@ nlohmann::json Engine::run_calibration(const CalibrationTask& t, const Settings&
       auto req = request_from(s, f, t.level_fs, t.duration_s);
       req.cancel = &cancel_current_;
       key_req = req;
-      if (t.kind == "channel_match") {
-        points.push_back(channel_match_point(f, measure_channel_match(*device_, req)));
+      if (t.kind == "channel_match" || t.kind == "level") {
+        // Both read the plain channel ratio; the level step wants only node A's level
+        // (with the jig open node B follows node A, so the ratio is harmless).
+        const auto m = measure_channel_match(*device_, req);
+        auto p = t.kind == "level" ? nlohmann::json{{"freq_hz", f}, {"level_a_fs", m.level_a_fs}}
+                                   : channel_match_point(f, m);
+        p["a_per_fs"] = m.level_a_fs / m.level_fs;
+        points.push_back(p);
       } else {
         Corrections corr;
-        if (store_) corr = find_corrections(*store_, key_for(device_id(), req), f, 0);
+        if (store_) corr = find_corrections(*store_, key_for(device_id(), req), f, {});
         dsp::UncertainComplex z;
+        double a = 0;
         try {
-          z = measure_once(*device_, req, corr.match).reading.z;
+          const auto r = measure_once(*device_, req, corr.match);
+          z = r.reading.z;
+          a = r.reading.level_a / r.level_fs;
         } catch (const dsp::AnalysisError& e) {
           // An open beyond what the bridge resolves is an ideal open: nothing to remove.
           if (t.kind != "open" || e.id() != "analysis.bridge_singular") throw;
           z.value = {1e18, 0};
         }
-        points.push_back(impedance_point(f, z));
+        auto p = impedance_point(f, z);
+        if (a > 0) p["a_per_fs"] = a;
+        points.push_back(p);
       }
       ++info.done;
       update_task(info);
@@ -237,15 +268,61 @@ nlohmann::json Engine::run_calibration(const CalibrationTask& t, const Settings&
     throw;
   }
   if (bench_) rewire_bench(s);
-  EngineEvent e{"calibration",
-                {{"kind", t.kind},
-                 {"device", device_id()},
-                 {"sample_rate_hz", key_req.stream.sample_rate_hz},
-                 {"layout", std::string(dsp::layout_name(key_req.layout))},
-                 {"rref_ohm", key_req.rref_ohm},
-                 {"points", points}}};
+  const bool level = t.kind == "level";
+  EngineEvent e{
+      "calibration",
+      {{"kind", t.kind},
+       {"device", device_id()},
+       {"sample_rate_hz", key_req.stream.sample_rate_hz},
+       {"layout", level ? std::string(kAnyLayout) : std::string(dsp::layout_name(key_req.layout))},
+       {"rref_ohm", level ? 0.0 : key_req.rref_ohm},
+       {"level_fs", key_req.level_fs},
+       {"points", points}}};
+  if (t.kind == "load") {
+    e.data["load_ohm"] = *t.load_ohm;
+    e.data["load_tolerance_rel"] = t.load_tolerance_pct.value_or(0.1) / 100;
+  }
+  if (level) {
+    // The meter reads rms at node A; the inputs' full scale in peak volts follows from
+    // the level node A showed in full-scale units.
+    const double a = points.at(0).at("level_a_fs").get<double>();
+    if (!(a > 1e-4)) {
+      throw Error(
+          "calibration.no_signal",
+          "node A showed no tone during the level step (" + std::to_string(a) + " of full scale)",
+          "check that the output drives node A and input 1 reads it, then repeat");
+    }
+    e.data["meter_vrms"] = *t.meter_vrms;
+    e.data["volts_per_fs"] = *t.meter_vrms * std::numbers::sqrt2 / a;
+  }
   publish(e);
   return {{"calibration_id", e.data.value("id", std::int64_t{0})}};
+}
+
+nlohmann::json Engine::run_tone(const ToneTask& t, const Settings& s, TaskInfo& info) {
+  auto req = request_from(s, t.freq_hz, t.level_fs, std::nullopt);
+  const double fs = req.stream.sample_rate_hz;
+  // Whole periods per chunk (the frequency on a 1 Hz grid, 1 s chunks), so the tone runs
+  // on across chunks without a click; fades only at the very start and end.
+  const double f = std::max(1.0, std::round(req.freq_hz));
+  const auto chunk = static_cast<std::size_t>(fs);
+  const int chunks = static_cast<int>(std::ceil(t.seconds));
+  const auto fade = static_cast<std::size_t>(0.02 * fs);
+  info.total = chunks;
+  for (int c = 0; c < chunks; ++c) {
+    std::vector<double> x(chunk);
+    for (std::size_t i = 0; i < chunk; ++i) {
+      double g = req.level_fs;
+      if (c == 0 && i < fade) g *= static_cast<double>(i) / static_cast<double>(fade);
+      if (c == chunks - 1 && chunk - i <= fade)
+        g *= static_cast<double>(chunk - i) / static_cast<double>(fade);
+      x[i] = g * std::sin(2 * std::numbers::pi * f * static_cast<double>(i) / fs);
+    }
+    play_and_capture(*device_, req.stream, x, 0, &cancel_current_);
+    info.done = c + 1;
+    update_task(info);
+  }
+  return {{"freq_hz", f}, {"level_fs", req.level_fs}, {"seconds", chunks}};
 }
 
 nlohmann::json Engine::run_bench_part(const BenchPartTask& t) {

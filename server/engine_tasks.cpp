@@ -71,7 +71,7 @@ std::vector<double> SweepTask::frequencies() const {
 }
 
 std::string task_kind(const TaskRequest& t) {
-  static const char* names[] = {"reading", "watch", "sweep", "calibration", "bench_part"};
+  static const char* names[] = {"reading", "watch", "sweep", "calibration", "bench_part", "tone"};
   return names[t.index()];
 }
 
@@ -98,9 +98,29 @@ void validate(const TaskRequest& t, const Settings& s) {
     lim.duration(sw->duration_s);
   }
   if (const auto* c = std::get_if<CalibrationTask>(&t)) {
-    if (c->kind != "channel_match" && c->kind != "open" && c->kind != "short") {
+    if (c->kind != "channel_match" && c->kind != "open" && c->kind != "short" &&
+        c->kind != "load" && c->kind != "level") {
       throw Error("request.bad_value", "no calibration step named '" + c->kind + "'",
-                  "use channel_match, open or short");
+                  "use level, channel_match, open, short or load");
+    }
+    if (c->kind == "load") {
+      if (!c->load_ohm) {
+        throw Error("request.missing_field", "the load step needs load_ohm",
+                    "give the known resistor's value in ohm (and load_tolerance_pct)");
+      }
+      in_range("load_ohm", *c->load_ohm, 0.01, 10e6, "a resistor from 10 mohm to 10 Mohm");
+      in_range("load_tolerance_pct", c->load_tolerance_pct.value_or(0.1), 0.001, 5,
+               "the resistor's tolerance, e.g. 0.1 for 0.1 %");
+    }
+    if (c->kind == "level") {
+      if (!c->meter_vrms) {
+        throw Error("request.missing_field", "the level step needs meter_vrms",
+                    "play the test tone (POST /api/v1/tone), read node A with an AC "
+                    "multimeter, and give that reading in volts rms");
+      }
+      in_range("meter_vrms", *c->meter_vrms, 1e-3, 20, "the multimeter's AC reading in volts");
+      in_range("number of freqs_hz", static_cast<double>(c->freqs_hz.size()), 1, 1,
+               "the level step takes one frequency: the tone the meter read");
     }
     in_range("number of freqs_hz", static_cast<double>(c->freqs_hz.size()), 1, 64,
              "list the frequencies you will measure at");
@@ -108,6 +128,11 @@ void validate(const TaskRequest& t, const Settings& s) {
       lim.freq("freqs_hz", f);
     lim.level(c->level_fs);
     lim.duration(c->duration_s);
+  }
+  if (const auto* tone = std::get_if<ToneTask>(&t)) {
+    if (tone->freq_hz) lim.freq("freq_hz", *tone->freq_hz);
+    lim.level(tone->level_fs);
+    in_range("seconds", tone->seconds, 1, 600, "how long to play the tone, 1 to 600 s");
   }
   if (const auto* b = std::get_if<BenchPartTask>(&t)) {
     if (s.text("device") != "simulated") {
@@ -156,8 +181,16 @@ nlohmann::json to_json(const TaskRequest& t) {
     j = {{"kind", c->kind}, {"freqs_hz", c->freqs_hz}};
     put(j, "level_fs", c->level_fs);
     put(j, "duration_s", c->duration_s);
+    put(j, "load_ohm", c->load_ohm);
+    put(j, "load_tolerance_pct", c->load_tolerance_pct);
+    put(j, "meter_vrms", c->meter_vrms);
   }
   if (const auto* b = std::get_if<BenchPartTask>(&t)) j = {{"part", b->part}};
+  if (const auto* tone = std::get_if<ToneTask>(&t)) {
+    j = {{"seconds", tone->seconds}};
+    put(j, "freq_hz", tone->freq_hz);
+    put(j, "level_fs", tone->level_fs);
+  }
   return j;
 }
 

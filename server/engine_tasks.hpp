@@ -40,12 +40,17 @@ struct SweepTask {
   std::vector<double> frequencies() const;
 };
 
-/// One calibration step at a list of frequencies: "channel_match" (both inputs on node A),
-/// "open" (nothing in the jig), "short" (the jig's clips together).
+/// One calibration step at a list of frequencies (calibration_guide.hpp says what each
+/// needs connected): "channel_match" (both inputs on node A), "open" (nothing in the jig),
+/// "short" (the jig's clips together), "load" (a known resistor in the jig: load_ohm and
+/// its tolerance), "level" (the open jig while a multimeter reads node A: meter_vrms,
+/// at one frequency).
 struct CalibrationTask {
   std::string kind;
   std::vector<double> freqs_hz;
   std::optional<double> level_fs, duration_s;
+  std::optional<double> load_ohm, load_tolerance_pct;  ///< load only
+  std::optional<double> meter_vrms;                    ///< level only
 };
 
 /// Simulated bench only: take the part off the jig and put this one on (part_spec.hpp).
@@ -53,7 +58,15 @@ struct BenchPartTask {
   std::string part;
 };
 
-using TaskRequest = std::variant<ReadingTask, WatchTask, SweepTask, CalibrationTask, BenchPartTask>;
+/// A steady test tone for `seconds` (1 .. 600) or until cancelled, for reading node A with
+/// a multimeter before the level calibration. Nothing is measured or saved.
+struct ToneTask {
+  std::optional<double> freq_hz, level_fs;
+  double seconds = 60;
+};
+
+using TaskRequest =
+    std::variant<ReadingTask, WatchTask, SweepTask, CalibrationTask, BenchPartTask, ToneTask>;
 
 std::string task_kind(const TaskRequest& t);  ///< "reading", "watch", "sweep", ...
 

@@ -127,9 +127,12 @@ ChannelMatch measure_channel_match(AudioDevice& device, const MeasureRequest& re
   c.bridge.layout = dsp::Layout::part_high;  // any: only the ratio is used
   c.rref_tolerance_rel = 0;
   c.check_swapped = false;
-  const auto r = play_and_analyze(device, request, c).reading;
+  const auto played = play_and_analyze(device, request, c);
+  const auto& r = played.reading;
   ChannelMatch m;
   m.h = r.ratio;
+  m.level_a_fs = r.level_a;
+  m.level_fs = played.level_fs;
   // The relative scatter of a complex mean splits evenly between its magnitude (gain)
   // and its angle (phase) when the noise is circular.
   m.u_gain_rel = r.ratio_u_rel / std::sqrt(2.0);

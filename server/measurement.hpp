@@ -40,6 +40,8 @@ struct MeasureRequest {
 struct ChannelMatch {
   std::complex<double> h{1, 0};  ///< V_B / V_A with both inputs on node A
   double u_gain_rel = 0, u_phase_rad = 0;
+  double level_a_fs = 0;  ///< peak level at node A during the step, full-scale units
+  double level_fs = 0;    ///< output level the step used
 };
 
 /// Something the technician should know about one reading: a correction it lacks, a

@@ -149,7 +149,11 @@ const std::vector<SettingSpec>& setting_specs() {
       worded("mains_hz", T::choice, "50", {"50", "60"}, "Hz", true,
              "mains frequency here; its hum and harmonics are kept out of the readings"),
       numeric("full_scale_vrms", T::number, "0", 0, 100, "V", true,
-              "rms volts of a full-scale sine at the inputs; 0 = unknown"),
+              "rms volts of a full-scale sine at the inputs; 0 = unknown (a level calibration "
+              "replaces it)"),
+      numeric("calibration_max_age_h", T::number, "24", 0.1, 8760, "h", true,
+              "calibrations older than this are still applied but the reading calls them "
+              "stale"),
       numeric("sim_seed", T::integer, "1", 1, 1e9, "", false,
               "seed of the simulated card's hidden faults"),
       worded("sim_part", T::text, "cap 6.8u esr 0.05", {}, "", true,

@@ -42,7 +42,11 @@ void StoreSink::deliver(EngineEvent& e) {
     c.sample_rate_hz = d.at("sample_rate_hz").get<double>();
     c.layout = d.at("layout").get<std::string>();
     c.rref_ohm = d.at("rref_ohm").get<double>();
-    c.body = {{"points", d.at("points")}};
+    // Everything but the key is the record's body (points, and a step's own values such
+    // as the load's nominal value or the level's meter reading).
+    c.body = d;
+    for (const char* k : {"kind", "device", "sample_rate_hz", "layout", "rref_ohm"})
+      c.body.erase(k);
     d["id"] = store_.add_calibration(c);
   }
 }
