@@ -88,6 +88,21 @@ void add_service_routes(std::vector<Route>& r) {
                  }
                  return ApiReply{202, {{"cancelling", id}}};
                }});
+  r.push_back({"POST", "/api/v1/tasks/{id}/continue", Access::change,
+               "confirm that what the running task asked for (its prompt) is done",
+               [](ApiContext& ctx, const httplib::Request& req) {
+                 const auto id = path_id(req);
+                 if (!ctx.engine.resume(id)) {
+                   if (!ctx.engine.task(id)) not_found("task", id);
+                   return ApiReply{
+                       409,
+                       {{"error",
+                         {{"id", "task.not_waiting"},
+                          {"message", "task " + std::to_string(id) + " is not waiting for you"},
+                          {"hint", "continue a task only while its prompt is shown"}}}}};
+                 }
+                 return ApiReply{202, {{"continuing", id}}};
+               }});
   r.push_back({"GET", "/api/v1/bench", Access::read,
                "the simulated bench: the part on the jig and the demo tray",
                [](ApiContext& ctx, const httplib::Request&) {

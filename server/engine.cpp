@@ -24,7 +24,8 @@ nlohmann::json to_json(const TaskInfo& t) {
           {"queued_at", t.queued_at},
           {"started_at", t.started_at},
           {"ended_at", t.ended_at},
-          {"progress", {{"done", t.done}, {"total", t.total}}}};
+          {"progress", {{"done", t.done}, {"total", t.total}}},
+          {"prompt", t.prompt.empty() ? nlohmann::json() : nlohmann::json(t.prompt)}};
 }
 
 nlohmann::json to_json(const EngineStatus& s) {
@@ -96,6 +97,45 @@ bool Engine::cancel(std::int64_t task_id) {
     return true;
   }
   return false;
+}
+
+bool Engine::resume(std::int64_t task_id) {
+  std::lock_guard lock(m_);
+  if (current_id_ != task_id || current_id_ == 0 || !awaiting_) return false;
+  resumed_ = true;
+  cv_.notify_all();
+  return true;
+}
+
+void Engine::await_user(TaskInfo& info, const std::string& prompt, double timeout_s) {
+  info.prompt = prompt;
+  {
+    std::lock_guard lock(m_);
+    awaiting_ = true;
+    resumed_ = false;
+  }
+  update_task(info);
+  EngineEvent e{"task", to_json(info)};
+  publish(e);
+  const auto deadline =
+      std::chrono::steady_clock::now() + std::chrono::duration<double>(timeout_s);
+  bool resumed = false;
+  {
+    std::unique_lock lock(m_);
+    // cancel() sets the flag without a notification: look at it every 100 ms.
+    while (!resumed_ && !cancel_current_ && std::chrono::steady_clock::now() < deadline)
+      cv_.wait_for(lock, std::chrono::milliseconds(100));
+    resumed = resumed_;
+    awaiting_ = resumed_ = false;
+  }
+  info.prompt.clear();
+  update_task(info);
+  if (resumed) return;
+  if (cancel_current_) throw Error("task.cancelled", "the task was cancelled", "");
+  throw Error("task.no_answer",
+              "no one confirmed within " + std::to_string(static_cast<int>(timeout_s / 60)) +
+                  " minutes: " + prompt,
+              "do what it asks and start the task again");
 }
 
 std::optional<std::int64_t> Engine::cancel_kind(const std::string& kind) {

@@ -43,6 +43,9 @@ struct TaskInfo {
   nlohmann::json error;   ///< {"id","message","hint"} when failed
   std::string queued_at, started_at, ended_at;
   int done = 0, total = 0;  ///< progress in steps (points, readings)
+  /// What the technician must do before the running task goes on (swap the inputs, ...);
+  /// empty when it waits for no one. POST /api/v1/tasks/{id}/continue confirms.
+  std::string prompt;
 };
 nlohmann::json to_json(const TaskInfo& t);
 
@@ -74,6 +77,9 @@ class Engine {
   TaskInfo submit(TaskRequest request);
   /// Cancels a queued or running task; false if it is unknown or already ended.
   bool cancel(std::int64_t task_id);
+  /// Confirms that the running task's prompt was done; false if that task waits for
+  /// no one.
+  bool resume(std::int64_t task_id);
   /// Cancels the running task if it is of this kind ("watch", "sweep"); returns its id.
   std::optional<std::int64_t> cancel_kind(const std::string& kind);
 
@@ -99,6 +105,9 @@ class Engine {
   void publish(EngineEvent& e);
   void update_task(const TaskInfo& info);
   std::string device_id() const;
+  /// Publishes `prompt` with the task and blocks until resume(), cancellation
+  /// (task.cancelled) or `timeout_s` (task.no_answer).
+  void await_user(TaskInfo& info, const std::string& prompt, double timeout_s = 600);
 
   // Task bodies (engine_runs.cpp).
   nlohmann::json run_reading(const ReadingTask& t, const Settings& s, const char* origin,
@@ -126,6 +135,7 @@ class Engine {
   std::shared_ptr<const nlohmann::json> latest_;
   std::atomic<bool> cancel_current_{false};
   std::int64_t current_id_ = 0;
+  bool awaiting_ = false, resumed_ = false;  // a prompt is out / it was confirmed
   bool stopping_ = false;
   bool shutdown_done_ = false;
   std::thread thread_;
