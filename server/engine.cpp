@@ -117,8 +117,7 @@ void Engine::await_user(TaskInfo& info, const std::string& prompt, double timeou
   update_task(info);
   EngineEvent e{"task", to_json(info)};
   publish(e);
-  const auto deadline =
-      std::chrono::steady_clock::now() + std::chrono::duration<double>(timeout_s);
+  const auto deadline = std::chrono::steady_clock::now() + std::chrono::duration<double>(timeout_s);
   bool resumed = false;
   {
     std::unique_lock lock(m_);
