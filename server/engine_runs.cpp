@@ -12,6 +12,7 @@
 #include "server/engine.hpp"
 #include "server/error.hpp"
 #include "server/error_report.hpp"
+#include "server/reading_budget.hpp"
 #include "server/reading_json.hpp"
 #include "server/simulated_card.hpp"
 
@@ -59,7 +60,12 @@ Corrections corrections_for(const Store* store, const std::string& device, Measu
 // The reading's JSON with what the stored corrections add: which were used, which are
 // missing or old, whether the card's level moved since, and where its volts come from.
 nlohmann::json reading_json(MeasureResult& result, const MeasureRequest& req,
-                            const Corrections& corr) {
+                            const Corrections& corr, const Settings& s) {
+  double match_age_h = 0;
+  if (corr.used.contains("channel_match"))
+    match_age_h = hours_between(corr.used["channel_match"].value("taken_at", ""), utc_now_iso());
+  add_correction_terms(result, req, corr, std::isfinite(match_age_h) ? match_age_h : 0,
+                       {.channel_drift_db_per_h = s.number("channel_drift_db_per_h")});
   check_level_drift(corr, result, req, result.notices);
   auto j = to_json(result, req);
   j["corrections"] = corr.used;
@@ -93,7 +99,7 @@ nlohmann::json Engine::run_reading(const ReadingTask& t, const Settings& s, cons
   req.cancel = &cancel_current_;
   const Corrections corr = corrections_for(store_, device_id(), req, s, kReconnectHalfWidthOhm);
   auto result = measure_once(*device_, req, corr.match, corr.fixture);
-  EngineEvent e{"reading", reading_json(result, req, corr)};
+  EngineEvent e{"reading", reading_json(result, req, corr, s)};
   e.data["origin"] = origin;
   e.data["task_id"] = task_id;
   e.data["device"] = device_id();
@@ -157,7 +163,7 @@ nlohmann::json Engine::run_sweep(const SweepTask& t, const Settings& s, TaskInfo
     try {
       const Corrections corr = corrections_for(store_, device_id(), req, s, kReconnectHalfWidthOhm);
       auto result = measure_once(*device_, req, corr.match, corr.fixture);
-      point.data["reading"] = reading_json(result, req, corr);
+      point.data["reading"] = reading_json(result, req, corr, s);
     } catch (...) {
       const ErrorInfo e = describe_current_error();
       const bool fatal = e.id == "task.cancelled" || e.id == "part.charged" ||

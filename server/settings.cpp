@@ -154,6 +154,9 @@ const std::vector<SettingSpec>& setting_specs() {
       numeric("calibration_max_age_h", T::number, "24", 0.1, 8760, "h", true,
               "calibrations older than this are still applied but the reading calls them "
               "stale"),
+      numeric("channel_drift_db_per_h", T::number, "0.01", 0, 1, "dB/h", true,
+              "how fast the two inputs' gain ratio may wander after the channel match; the "
+              "budget's calibration_drift term grows with the match's age"),
       numeric("sim_seed", T::integer, "1", 1, 1e9, "", false,
               "seed of the simulated card's hidden faults"),
       worded("sim_part", T::text, "cap 6.8u esr 0.05", {}, "", true,

@@ -200,20 +200,23 @@ void SimulatedCard::render(std::span<const float> out, std::span<float> in_a,
         u += dac_taps_[k + j * kOversample] * dac_hist_[j];
       fine_[k] = u;
     }
-    if (card.out_current_limit_a > 0) {
-      // The output stage cannot push more than its current limit: the band-limited source
-      // is held within limit * Rout of the node it feeds (a compliance limit). Applied
-      // after the reconstruction filter, whose delay would otherwise make the raw sample
-      // and the node disagree by far more than any current flows.
-      const double v_o = solver_->voltage(node_o);
-      const double swing = card.out_current_limit_a * std::max(card.out_resistance_ohm, 1e-6);
-      for (double& u : fine_)
-        u = std::clamp(u, v_o - swing, v_o + swing);
-    }
     // Node voltages on the fine grid (kReads per sample) into each input's ring.
     const std::size_t per_read = kOversample / kReads;
     for (std::size_t r = 0; r < kReads; ++r) {
-      solver_->step_oversampled(std::span<const double>(fine_).subspan(r * per_read, per_read));
+      auto chunk = std::span<double>(fine_).subspan(r * per_read, per_read);
+      if (card.out_current_limit_a > 0) {
+        // The output stage cannot push more than its current limit: the band-limited
+        // source is held within limit * Rout of the node it feeds (a compliance limit).
+        // Judged at this chunk's first internal step, a 32nd of a sample after the node's
+        // present value, and the whole chunk shifted alike, so the comparison is not
+        // spoilt by how far the tone moves within a sample.
+        const double swing = card.out_current_limit_a * std::max(card.out_resistance_ohm, 1e-6);
+        const double d = chunk[0] - solver_->voltage(node_o);
+        const double shift = std::clamp(d, -swing, swing) - d;
+        for (double& u : chunk)
+          u += shift;
+      }
+      solver_->step_oversampled(chunk);
       // Each value is written twice, kAdcTaps apart, so the filter reads one contiguous
       // window without wrapping.
       for (int ch = 0; ch < 2; ++ch) {
