@@ -55,7 +55,12 @@ JigNetlist build_jig(const JigSetup& setup, const Netlist& part, const CardFault
     }
     n.elements.push_back(e);
   }
-  jig.node_in_b = setup.inputs_on_node_a ? "a" : "b";
+  if (setup.inputs_on_node_a) {
+    jig.node_in_b = "a";
+  } else if (setup.inputs_swapped) {
+    jig.node_in_a = "b";
+    jig.node_in_b = "a";
+  }
   const std::string reads[2] = {jig.node_in_a, jig.node_in_b};
   for (int ch = 0; ch < 2; ++ch) {
     const std::string tag = ch == 0 ? "A" : "B";

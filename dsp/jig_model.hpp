@@ -8,7 +8,8 @@
 //
 // part_low:  Rref a-b, lead, part, lead to ground.   part_high: lead, part, lead a-b, Rref b-0.
 // In the channel-match connection both inputs read node a (the calibration that measures
-// their mismatch), and the part stays in place.
+// their mismatch), and the part stays in place; in the swapped connection input A reads
+// node b and input B node a.
 #pragma once
 
 #include <complex>
@@ -24,7 +25,10 @@ struct JigSetup {
   Layout layout = Layout::part_low;
   double rref_ohm = 1000;         ///< > 0
   bool inputs_on_node_a = false;  ///< channel-match connection
-  double lead_hot_ohm = 0;        ///< lead + contact resistance on each side of the part
+  /// Swap-and-average's second connection: input A reads node b, input B reads node a
+  /// (each input's loading moves with it). Ignored when inputs_on_node_a is set.
+  bool inputs_swapped = false;
+  double lead_hot_ohm = 0;  ///< lead + contact resistance on each side of the part
   double lead_cold_ohm = 0;
 };
 

@@ -140,6 +140,18 @@ ChannelMatch measure_channel_match(AudioDevice& device, const MeasureRequest& re
   return m;
 }
 
+RawCapture capture_uncorrected(AudioDevice& device, const MeasureRequest& request) {
+  RawCapture out;
+  plan_for(request);  // refuses a bad request before anything is played
+  out.pre_listen_peak_fs = pre_listen(device, request.stream, 0.1, request.cancel);
+  auto config = analysis_config(request, request.freq_hz);
+  config.check_swapped = false;
+  const auto played = play_and_analyze(device, request, config);
+  out.reading = played.reading;
+  out.level_fs = played.level_fs;
+  return out;
+}
+
 MeasureResult measure_once(AudioDevice& device, const MeasureRequest& request,
                            const std::optional<ChannelMatch>& match,
                            const std::optional<dsp::FixtureStandards>& fixture) {

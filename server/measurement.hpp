@@ -64,6 +64,9 @@ struct MeasureResult {
   double requested_hz = 0;
   std::optional<ChannelMatch> channel_match;
   bool fixture_compensated = false;
+  /// Read swap-and-average (server/swap_average.hpp): the inputs' mismatch cancelled
+  /// without a channel match; channel_match is then empty.
+  bool swap_averaged = false;
   Advice advice;
   double pre_listen_peak_fs = 0;  ///< largest input sample before the tone started
   double level_fs = 0;            ///< output level used (lowered from the request if it clipped)
@@ -87,6 +90,18 @@ ChannelMatch measure_channel_match(AudioDevice& device, const MeasureRequest& re
 MeasureResult measure_once(AudioDevice& device, const MeasureRequest& request,
                            const std::optional<ChannelMatch>& match,
                            const std::optional<dsp::FixtureStandards>& fixture = std::nullopt);
+
+/// One capture with no correction at all and without the swapped-inputs check (a step whose
+/// channel 2 may read node A, as in swap-and-average). Listens for a charged part first and
+/// plays again at a third of the level if the capture clips, as measure_once does.
+/// .reading.ratio is the uncorrected mean V_B/V_A with its Type A in .ratio_u_rel.
+/// Throws as measure_once does.
+struct RawCapture {
+  dsp::ToneReading reading;
+  double level_fs = 0;            ///< output level used
+  double pre_listen_peak_fs = 0;  ///< largest input sample before the tone started
+};
+RawCapture capture_uncorrected(AudioDevice& device, const MeasureRequest& request);
 
 /// The reference resistor of `available` (ohm) and the layout that suit an impedance:
 /// |Z| near Rref gives the lowest divider error; high impedances (>= 10 kohm) go in the

@@ -4,6 +4,7 @@
 #include <chrono>
 #include <cmath>
 #include <numbers>
+#include <stdexcept>
 
 #include "server/error.hpp"
 
@@ -103,6 +104,15 @@ void SimulatedCard::reconnect(const dsp::JigSetup& jig, const dsp::Netlist& part
   config_.jig.lead_hot_ohm = lead_base_hot_ + jitter(rng_);
   config_.jig.lead_cold_ohm = lead_base_cold_ + jitter(rng_);
   build(fs_);
+}
+
+void SimulatedCard::set_input_gain(int input, double gain) {
+  if (input != 0 && input != 1) throw std::invalid_argument("input must be 0 (A) or 1 (B)");
+  if (!(gain > 0) || !std::isfinite(gain)) throw std::invalid_argument("input gain must be > 0");
+  if (running())
+    throw Error("device.busy", "the simulated bench is running",
+                "stop the stream before changing an input's gain");
+  config_.card.in_gain[input] = gain;
 }
 
 double SimulatedCard::true_rref_ohm(double nominal_ohm) {

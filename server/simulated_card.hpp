@@ -62,6 +62,11 @@ class SimulatedCard final : public AudioDevice {
   /// new lead resistances, circuit state from its initial conditions. Not while running.
   void reconnect(const dsp::JigSetup& jig, const dsp::Netlist& part);
 
+  /// Changes input `input`'s (0 = A, 1 = B) linear gain, as a touched gain knob would;
+  /// gain > 0. Throws std::invalid_argument for a bad input or gain, tb::Error device.busy
+  /// while running. The measuring code is not told.
+  void set_input_gain(int input, double gain);
+
   const dsp::CardFaults& card() const { return config_.card; }
   /// True value of the reference resistor with this nominal value (teaching output only).
   double true_rref_ohm(double nominal_ohm);
