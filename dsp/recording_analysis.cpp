@@ -30,6 +30,8 @@ void validate(const AnalysisConfig& c, std::size_t na, std::size_t nb) {
     throw std::invalid_argument("reference resistor must be > 0 ohm");
   if (!(c.rref_tolerance_rel >= 0 && c.rref_tolerance_rel < 0.5))
     throw std::invalid_argument("reference tolerance must be between 0 and 50 %");
+  if (!(c.rref_tempco_ppm_per_k >= 0 && c.rref_temp_span_k >= 0 && c.rref_inductance_h >= 0))
+    throw std::invalid_argument("reference tempco, temperature span and inductance must be >= 0");
   if (!(c.volts_per_fs >= 0)) throw std::invalid_argument("volts per full scale must be >= 0");
   if (c.target_blocks < 2) throw std::invalid_argument("target blocks must be >= 2");
   if (na != nb) throw std::invalid_argument("the two channels differ in length");
@@ -340,6 +342,28 @@ AnalysisResult analyze_recording(std::span<const double> a, std::span<const doub
           {"rref_tolerance",
            sensitivity(bc, r.ratio, [](BridgeConfig& c, double h) { c.rref_ohm *= 1 + h; }),
            rectangular_u(config.rref_tolerance_rel)});
+    }
+    // Temperature: the same relative change of Rref as its tolerance, hence the same
+    // sensitivity; half-width tempco * span.
+    const double tempco_half_width = config.rref_tempco_ppm_per_k * 1e-6 * config.rref_temp_span_k;
+    if (tempco_half_width > 0) {
+      r.z.type_b.push_back(
+          {"rref_tempco",
+           sensitivity(bc, r.ratio, [](BridgeConfig& c, double h) { c.rref_ohm *= 1 + h; }),
+           rectangular_u(tempco_half_width)});
+    }
+    // Series inductance of Rref: a reactance j w L in series with it. The step is taken as a
+    // small reactance relative to |Rref| (h |Rref| ohm, i.e. h |Rref| / w henry), then scaled
+    // to ohm per henry.
+    if (config.rref_inductance_h > 0) {
+      const double w = 2 * std::numbers::pi * freq;
+      const double mag = std::abs(bc.rref_ohm);
+      r.z.type_b.push_back(
+          {"rref_reactance",
+           sensitivity(bc, r.ratio,
+                       [mag](BridgeConfig& c, double h) { c.rref_ohm += cplx(0, h * mag); }) *
+               (w / mag),
+           rectangular_u(config.rref_inductance_h)});
     }
     if (bc.input_impedance_ohm && config.input_impedance_u_rel > 0) {
       r.z.type_b.push_back(

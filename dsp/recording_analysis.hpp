@@ -40,6 +40,15 @@ struct AnalysisConfig {
   BridgeConfig bridge;            ///< layout, Rref, channel match, input impedance
   double rref_tolerance_rel =
       0.001;  ///< Rref tolerance half-width (rectangular), e.g. 0.001 = 0.1 %
+  /// Rref temperature coefficient, ppm/K, >= 0; with rref_temp_span_k it gives the
+  /// "rref_tempco" term, half-width tempco * span (rectangular). Metal film: 50 ppm/K over
+  /// 5 K (common practice, no source). 0 leaves the term out.
+  double rref_tempco_ppm_per_k = 0;
+  double rref_temp_span_k = 0;  ///< how far the resistor may sit from its calibration, K, >= 0
+  /// Half-width of the reference resistor's own series inductance, henry, >= 0: the
+  /// "rref_reactance" term (rectangular; sensitivity through the bridge at each tone).
+  /// A non-inductive film resistor: about 20 nH (from memory). 0 leaves the term out.
+  double rref_inductance_h = 0;
   /// The input reading node B as R || C, evaluated at each tone; when set it replaces
   /// bridge.input_impedance_ohm.
   std::optional<InputLoad> input_load;

@@ -25,6 +25,15 @@ ReadingTask reading_task(const nlohmann::json& b) {
                   "leave it out to let the reading decide");
     }
   }
+  if (auto c = api::opt_text(b, "part_class")) {
+    t.part_class = dsp::parse_part_class(*c);
+    if (!t.part_class) {
+      throw Error("request.bad_value",
+                  "part_class must be general, electrolytic or in_circuit, got '" + *c + "'",
+                  "electrolytic caps the part at 0.5 V rms, in_circuit at 100 mV peak; leave it "
+                  "out for a general part");
+    }
+  }
   return t;
 }
 
@@ -38,8 +47,9 @@ void add_reading_routes(std::vector<Route>& r) {
   r.push_back({"POST", "/api/v1/readings", Access::change,
                "take one reading (\"wait\": true answers with the reading)",
                [](ApiContext& ctx, const httplib::Request& req) {
-                 const auto b = api::parse_body(
-                     req.body, {"freq_hz", "level_fs", "duration_s", "kind", "part_id", "wait"});
+                 const auto b =
+                     api::parse_body(req.body, {"freq_hz", "level_fs", "duration_s", "kind",
+                                                "part_class", "part_id", "wait"});
                  const auto task = reading_task(b);
                  check_part(ctx.store, task.part_id);
                  const auto queued = ctx.engine.submit(task);
@@ -104,8 +114,9 @@ void add_reading_routes(std::vector<Route>& r) {
   r.push_back({"POST", "/api/v1/watch", Access::change,
                "take readings continuously (per_s a second) until stopped",
                [](ApiContext& ctx, const httplib::Request& req) {
-                 const auto b = api::parse_body(
-                     req.body, {"per_s", "freq_hz", "level_fs", "duration_s", "kind", "part_id"});
+                 const auto b =
+                     api::parse_body(req.body, {"per_s", "freq_hz", "level_fs", "duration_s",
+                                                "kind", "part_class", "part_id"});
                  WatchTask w;
                  w.each = reading_task(b);
                  w.per_s = api::opt_number(b, "per_s").value_or(1.0);

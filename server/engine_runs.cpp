@@ -37,6 +37,13 @@ MeasureRequest request_from(const Settings& s, std::optional<double> freq_hz,
   r.rref_tolerance_rel = s.number("rref_tolerance_pct") / 100;
   r.rref_set_ohm = s.numbers("rref_set_ohm");
   r.volts_per_fs = s.number("full_scale_vrms") * std::numbers::sqrt2;
+  // The volts come from a setting; no level calibration exists yet to mark them measured.
+  r.level_calibrated = false;
+  r.level_cap_fs = s.number("level_cap_fs");
+  r.mains_hz = s.number("mains_hz");
+  r.rref_tempco_ppm_per_k = s.number("rref_tempco_ppm_per_k");
+  r.rref_temp_span_k = s.number("rref_temp_span_k");
+  r.rref_inductance_h = s.number("rref_inductance_h");
   return r;
 }
 
@@ -96,6 +103,10 @@ nlohmann::json Engine::run_reading(const ReadingTask& t, const Settings& s, cons
   rewire_bench(s);
   auto req = request_from(s, t.freq_hz, t.level_fs, t.duration_s);
   req.force_kind = t.force_kind;
+  req.part_class = t.part_class.value_or(dsp::PartClass::general);
+  // A capped class without a level of its own gets the automatic level, which keeps the
+  // part under its voltage cap from the first tone on.
+  if (dsp::part_voltage_cap_vrms(req.part_class) && !t.level_fs) req.level_fs = 0;
   req.cancel = &cancel_current_;
   const Corrections corr = corrections_for(store_, device_id(), req, s, kReconnectHalfWidthOhm);
   auto result = measure_once(*device_, req, corr.match, corr.fixture);

@@ -155,6 +155,7 @@ nlohmann::json reading_json(const ReadingTask& r) {
   put(j, "level_fs", r.level_fs);
   put(j, "duration_s", r.duration_s);
   if (r.force_kind) j["kind"] = std::string(dsp::part_kind_name(*r.force_kind));
+  if (r.part_class) j["part_class"] = std::string(dsp::part_class_name(*r.part_class));
   if (r.part_id) j["part_id"] = *r.part_id;
   return j;
 }

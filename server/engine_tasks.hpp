@@ -12,14 +12,18 @@
 #include <nlohmann/json.hpp>
 
 #include "dsp/impedance.hpp"
+#include "dsp/test_level.hpp"
 #include "server/settings.hpp"
 
 namespace tb {
 
 /// One reading at the settings' layout and Rref. Unset fields take the settings' values.
+/// part_class electrolytic or in_circuit caps the voltage across the part; without level_fs
+/// such a reading chooses its level automatically (measurement.hpp).
 struct ReadingTask {
   std::optional<double> freq_hz, level_fs, duration_s;
   std::optional<dsp::PartKind> force_kind;
+  std::optional<dsp::PartClass> part_class;
   std::optional<std::int64_t> part_id;
 };
 

@@ -2,7 +2,11 @@
 
 #include <algorithm>
 #include <cmath>
+#include <numbers>
+#include <sstream>
 
+#include "dsp/setup_advice.hpp"
+#include "dsp/signal_checks.hpp"
 #include "dsp/tone_plan.hpp"
 #include "server/capture.hpp"
 #include "server/error.hpp"
@@ -28,10 +32,11 @@ dsp::TonePlan plan_for(const MeasureRequest& r) {
         std::to_string(r.freq_hz) + " Hz is outside 1 Hz to " + std::to_string(0.45 * fs) + " Hz",
         "pick a test frequency below 0.45 of the sample rate (use 96 kHz above ~20 kHz)");
   }
-  if (!(r.level_fs > 0 && r.level_fs <= 1)) {
+  if (!(r.level_fs >= 0 && r.level_fs <= 1) || !(r.level_cap_fs > 0 && r.level_cap_fs <= 1)) {
     throw Error("measure.bad_level",
-                "output level " + std::to_string(r.level_fs) + " of full scale",
-                "use a level between 0 and 1 of full scale");
+                "output level " + std::to_string(r.level_fs) + " (cap " +
+                    std::to_string(r.level_cap_fs) + ") of full scale",
+                "use a level between 0 (automatic) and 1 of full scale, and a cap above 0");
   }
   if (!(r.duration_s >= 0.1 && r.duration_s <= 60)) {
     throw Error("measure.bad_duration", "duration " + std::to_string(r.duration_s) + " s",
@@ -66,6 +71,9 @@ dsp::AnalysisConfig analysis_config(const MeasureRequest& r, double achieved_hz)
   c.bridge.layout = r.layout;
   c.bridge.rref_ohm = r.rref_ohm;
   c.rref_tolerance_rel = r.rref_tolerance_rel;
+  c.rref_tempco_ppm_per_k = r.rref_tempco_ppm_per_k;
+  c.rref_temp_span_k = r.rref_temp_span_k;
+  c.rref_inductance_h = r.rref_inductance_h;
   c.volts_per_fs = r.volts_per_fs;
   c.tones_hz = {achieved_hz};
   c.force_kind = r.force_kind;
@@ -80,10 +88,9 @@ struct Played {
 };
 
 Played play_and_analyze(AudioDevice& device, const MeasureRequest& request,
-                        dsp::AnalysisConfig config) {
+                        dsp::AnalysisConfig config, double level) {
   const auto plan = plan_for(request);
   config.tones_hz = {plan.tones[0].achieved_hz};
-  double level = request.level_fs;
   for (int attempt = 0;; ++attempt) {
     const auto x = excitation(plan, level);
     const auto cap = play_and_capture(device, request.stream, x, request.stream.period_frames * 4,
@@ -97,25 +104,134 @@ Played play_and_analyze(AudioDevice& device, const MeasureRequest& request,
   }
 }
 
-}  // namespace
+// The level of a step that plays without the automatic level (a calibration step, a raw
+// capture): the request's, or 0.3 of the cap when the request asks for automatic.
+double plain_level(const MeasureRequest& request) {
+  return request.level_fs > 0 ? request.level_fs : 0.3 * request.level_cap_fs;
+}
 
-double pre_listen(AudioDevice& device, const StreamSpec& spec, double seconds,
-                  const std::atomic<bool>* cancel) {
-  const std::vector<double> silence(static_cast<std::size_t>(seconds * spec.sample_rate_hz), 0.0);
-  const auto cap = play_and_capture(device, spec, silence, 0, cancel);
+// The pre-listen's capture (output silent) and its largest sample.
+struct Listened {
   double peak = 0;
-  for (const auto* ch : {&cap.a, &cap.b})
+  Capture cap;
+};
+
+Listened listen(AudioDevice& device, const StreamSpec& spec, double seconds,
+                const std::atomic<bool>* cancel) {
+  const std::vector<double> silence(static_cast<std::size_t>(seconds * spec.sample_rate_hz), 0.0);
+  Listened l{0, play_and_capture(device, spec, silence, 0, cancel)};
+  for (const auto* ch : {&l.cap.a, &l.cap.b})
     for (double v : *ch)
-      peak = std::max(peak, std::abs(v));
-  if (peak > 0.02) {
+      l.peak = std::max(l.peak, std::abs(v));
+  if (l.peak > 0.02) {
     throw Error("part.charged",
-                "a jump of " + std::to_string(static_cast<int>(std::lround(peak * 100))) +
+                "a jump of " + std::to_string(static_cast<int>(std::lround(l.peak * 100))) +
                     " % of full scale came from the jig with the output silent: the part may be "
                     "charged or connected to a live circuit",
                 "DISCONNECT IT NOW, discharge it through a bleeder resistor, confirm near 0 V with "
                 "a meter, then measure again; never measure parts in powered equipment");
   }
-  return peak;
+  return l;
+}
+
+std::string num(double v, int digits = 3) {
+  std::ostringstream s;
+  s.precision(digits);
+  s << v;
+  return s.str();
+}
+
+std::string db(double fs) {
+  return num(20 * std::log10(std::max(fs, 1e-12)), 3) + " dBFS";
+}
+
+void note(MeasureResult& out, std::string id, std::string message, std::string hint) {
+  out.notices.push_back({std::move(id), std::move(message), std::move(hint)});
+}
+
+// Checks on the pre-listen capture: DC offset at either input, hum at the mains harmonics.
+void check_silence(MeasureResult& out, const Capture& cap, const MeasureRequest& r) {
+  const char* names[] = {"input 1 (node A)", "input 2 (node B)"};
+  const std::vector<double>* chans[] = {&cap.a, &cap.b};
+  for (int i = 0; i < 2; ++i) {
+    const auto dc = dsp::check_dc_offset(*chans[i]);
+    if (dc.excessive) {
+      note(out, "input.dc_offset",
+           std::string(names[i]) + " sits at " + num(dc.mean_fs * 100, 2) +
+               " % of full scale with the output silent (DC offset)",
+           "the offset takes headroom and, on a DC-coupled input, biases the part: use an "
+           "AC-coupled input or a series capacitor, and check the jig for leakage or a "
+           "charged part");
+    }
+  }
+  dsp::Hum worst;
+  for (const auto* ch : chans) {
+    const auto h = dsp::measure_hum(*ch, r.stream.sample_rate_hz, r.mains_hz);
+    if (h.total_rms_fs > worst.total_rms_fs) worst = h;
+  }
+  if (worst.excessive) {
+    note(out, "signal.hum",
+         "the inputs pick up mains hum of " + db(worst.total_rms_fs) + " rms (strongest at " +
+             num(worst.worst_hz, 4) + " Hz) with the output silent",
+         "look for a ground loop (card and bench gear on different outlets, a USB hub, a "
+         "scope ground), keep the jig leads short and twisted together, away from "
+         "transformers and mains cables");
+  }
+}
+
+void check_frequency(MeasureResult& out, const MeasureRequest& r) {
+  const auto plan = plan_for(r);
+  const double f = plan.tones[0].achieved_hz;
+  const double bin = r.stream.sample_rate_hz / static_cast<double>(plan.block_len);
+  // Up to the 8th harmonic of 50 Hz mains: where hum is strong enough to matter (the
+  // usual 100/120 Hz choice above all). Higher harmonics are weak, and warning at 1 kHz
+  // (the 20th of 50 Hz), the usual test frequency, would cry wolf on every reading.
+  const auto m = dsp::check_mains_proximity(f, r.mains_hz, bin, 2, 400);
+  if (!m.near) return;
+  note(out, "signal.near_mains",
+       "the test frequency " + num(f, 5) + " Hz lies within " + num(2 * bin, 3) + " Hz of " +
+           num(m.harmonic_hz, 5) + " Hz, harmonic " + std::to_string(m.harmonic) + " of the " +
+           num(r.mains_hz, 3) + " Hz mains, where hum adds to the reading",
+       "measure at " + num(m.suggested_hz, 5) + " Hz instead" +
+           (m.suggested_hz == 100 || m.suggested_hz == 120
+                ? " (IEC allows 100 Hz or 120 Hz: use the one that is not a mains harmonic)"
+                : ""));
+}
+
+void check_strength(MeasureResult& out, const dsp::ToneReading& rd) {
+  const auto s = dsp::check_signal_strength(rd.level_b, rd.snr_a_db, rd.snr_b_db);
+  if (!s.weak()) return;
+  note(out, "signal.weak",
+       "the signal is too weak for a useful reading: node B at " + db(rd.level_b) +
+           " peak, per-block SNR " + num(rd.snr_a_db, 3) + " dB (A) and " + num(rd.snr_b_db, 3) +
+           " dB (B)",
+       "raise the output level (up to level_cap_fs) or switch to a reference resistor nearer "
+       "|Z| (see the advice)");
+}
+
+// The probe and the level it leads to, for an automatic level or a capped part class.
+dsp::LevelChoice choose_level(AudioDevice& device, const MeasureRequest& request,
+                              const dsp::AnalysisConfig& config, double cap_vrms) {
+  // About -34 dBFS: far below any cap (100 mV peak needs a DAC above 5 V full scale to
+  // pass it), yet some 60 dB above a card's noise in 0.4 s.
+  MeasureRequest probe = request;
+  probe.duration_s = 0.1;
+  const double probe_level =
+      std::min({0.02, request.level_cap_fs, request.level_fs > 0 ? request.level_fs : 1.0});
+  const auto p = play_and_analyze(device, probe, config, probe_level);
+  return dsp::choose_level({.level_fs = p.level_fs,
+                            .peak_fs = std::max(p.reading.level_a, p.reading.level_b),
+                            .part_vrms = p.reading.v_part_rms,
+                            .requested_fs = request.level_fs,
+                            .level_cap_fs = request.level_cap_fs,
+                            .part_cap_vrms = cap_vrms});
+}
+
+}  // namespace
+
+double pre_listen(AudioDevice& device, const StreamSpec& spec, double seconds,
+                  const std::atomic<bool>* cancel) {
+  return listen(device, spec, seconds, cancel).peak;
 }
 
 ChannelMatch measure_channel_match(AudioDevice& device, const MeasureRequest& request) {
@@ -127,7 +243,7 @@ ChannelMatch measure_channel_match(AudioDevice& device, const MeasureRequest& re
   c.bridge.layout = dsp::Layout::part_high;  // any: only the ratio is used
   c.rref_tolerance_rel = 0;
   c.check_swapped = false;
-  const auto played = play_and_analyze(device, request, c);
+  const auto played = play_and_analyze(device, request, c, plain_level(request));
   const auto& r = played.reading;
   ChannelMatch m;
   m.h = r.ratio;
@@ -146,7 +262,7 @@ RawCapture capture_uncorrected(AudioDevice& device, const MeasureRequest& reques
   out.pre_listen_peak_fs = pre_listen(device, request.stream, 0.1, request.cancel);
   auto config = analysis_config(request, request.freq_hz);
   config.check_swapped = false;
-  const auto played = play_and_analyze(device, request, config);
+  const auto played = play_and_analyze(device, request, config, plain_level(request));
   out.reading = played.reading;
   out.level_fs = played.level_fs;
   return out;
@@ -158,7 +274,20 @@ MeasureResult measure_once(AudioDevice& device, const MeasureRequest& request,
   MeasureResult out;
   out.requested_hz = request.freq_hz;
   plan_for(request);  // refuses a bad request before anything is played
-  out.pre_listen_peak_fs = pre_listen(device, request.stream, 0.1, request.cancel);
+  const auto cap_vrms = dsp::part_voltage_cap_vrms(request.part_class);
+  const std::string class_name(dsp::part_class_name(request.part_class));
+  if (cap_vrms && !(request.volts_per_fs > 0)) {
+    throw Error("measure.level_unknown",
+                "a " + class_name + " part may see at most " + format_si(*cap_vrms, "V", 3) +
+                    " rms, but the inputs' full scale in volts is not known",
+                "take the level calibration (or set full_scale_vrms from a meter reading), or "
+                "measure it as a general part");
+  }
+  const auto heard = listen(device, request.stream, 0.1, request.cancel);
+  out.pre_listen_peak_fs = heard.peak;
+  check_silence(out, heard.cap, request);
+  check_frequency(out, request);
+
   auto config = analysis_config(request, request.freq_hz);
   if (match) {
     config.bridge.channel_match = match->h;
@@ -166,42 +295,108 @@ MeasureResult measure_once(AudioDevice& device, const MeasureRequest& request,
     config.channel_phase_u_rad = match->u_phase_rad;
     out.channel_match = match;
   }
-  const auto played = play_and_analyze(device, request, config);
+  dsp::LevelChoice level{request.level_fs, dsp::LevelLimit::requested};
+  if (request.level_fs == 0 || cap_vrms)
+    level = choose_level(device, request, config, cap_vrms.value_or(0));
+  auto played = play_and_analyze(device, request, config, level.level_fs);
+  if (played.level_fs < level.level_fs) level.limited_by = dsp::LevelLimit::clipping;
+  // A non-linear part (an iron core, a junction) may take more voltage at the full level
+  // than the probe's scaling promised: lower and take it once more.
+  if (cap_vrms && played.reading.v_part_rms > *cap_vrms) {
+    const double lower = played.level_fs * 0.9 * *cap_vrms / played.reading.v_part_rms;
+    const auto again = play_and_analyze(device, request, config, lower);
+    if (again.level_fs < lower)
+      level.limited_by = dsp::LevelLimit::clipping;
+    else
+      level.limited_by = dsp::LevelLimit::part_voltage;
+    played = again;
+  }
   out.reading = played.reading;
   out.level_fs = played.level_fs;
+  out.level_limited_by = level.limited_by;
+  if (level.limited_by == dsp::LevelLimit::clipping) {
+    note(out, "level.lowered",
+         "the inputs clipped at output level " + num(level.level_fs) +
+             " of full scale; the reading was taken at " + num(out.level_fs),
+         "nothing to do for this reading; to avoid the retake, lower level_fs or the card's "
+         "output volume, or use the automatic level");
+  }
+  if (cap_vrms) {
+    if (out.reading.v_part_rms > *cap_vrms) {
+      note(out, "level.above_part_cap",
+           "the part saw " + format_si(out.reading.v_part_rms, "V", 3) + " rms, above the " +
+               format_si(*cap_vrms, "V", 3) + " rms allowed for a " + class_name + " part",
+           "lower level_fs or the card's output volume and measure again");
+    }
+    if (!request.level_calibrated) {
+      note(out, "level.uncalibrated",
+           "the voltage across the part (" + format_si(out.reading.v_part_rms, "V", 3) +
+               " rms, cap " + format_si(*cap_vrms, "V", 3) +
+               ") is worked out from the full_scale_vrms setting, not from a level calibration",
+           "take the level calibration (a meter reading at node A) so the cap is kept for sure");
+    }
+  }
+  if (request.part_class == dsp::PartClass::in_circuit) {
+    out.indicative = true;
+    note(out, "reading.indicative",
+         "measured in circuit: other parts in parallel change the reading, so it is "
+         "indicative and no pass/fail verdict is given",
+         "lift one leg of the part out of the circuit for a reading that can be judged");
+  }
+  check_strength(out, out.reading);
   if (fixture) {
     out.reading.z = dsp::compensate(out.reading.z, *fixture);
     dsp::update_derived(out.reading, request.force_kind);
     out.fixture_compensated = true;
   }
-  out.advice =
-      advise(out.reading.values.mag_ohm, request.rref_ohm, request.layout, request.rref_set_ohm);
+  out.advice = advise(out.reading, request);
   return out;
 }
 
-Advice advise(double z_mag_ohm, double present_rref_ohm, dsp::Layout present_layout,
-              const std::vector<double>& available) {
+Advice advise(const dsp::ToneReading& reading, const MeasureRequest& request) {
   Advice a;
-  a.rref_ohm = present_rref_ohm;
-  double best = std::abs(std::log(z_mag_ohm / present_rref_ohm));
-  for (double r : available) {
-    const double d = std::abs(std::log(z_mag_ohm / r));
-    if (d < best - 1e-9) {
-      best = d;
-      a.rref_ohm = r;
-    }
+  a.rref_ohm = request.rref_ohm;
+  a.layout = request.layout;
+  const std::complex<double> z = reading.z.value;
+  if (!(std::abs(z) > 0) || !std::isfinite(std::abs(z)) || !(reading.level_a > 0)) return a;
+  dsp::SetupModel m;
+  m.freq_hz = reading.freq_hz > 0 ? reading.freq_hz : request.freq_hz;
+  // The card's noise carries over to any set-up; per-block SNR to the standard deviation of the
+  // mean, relative to node A's level.
+  const double n = static_cast<double>(std::max<std::size_t>(reading.blocks_used, 1));
+  const auto noise = [&](double level, double snr_db) {
+    return level * std::pow(10.0, -snr_db / 20) / std::sqrt(n) / reading.level_a;
+  };
+  m.noise_a_rel = noise(reading.level_a, reading.snr_a_db);
+  m.noise_b_rel_a = noise(reading.level_b, reading.snr_b_db);
+  // What moves both channels alike (the source's level, a settling coupling capacitor)
+  // lowers each channel's SNR but cancels in the ratio: where the channels' scatter
+  // promises more ratio scatter than was seen, scale it down to the ratio's own.
+  const double r_mag = reading.level_b / reading.level_a;
+  const double promised = std::hypot(m.noise_a_rel, r_mag > 0 ? m.noise_b_rel_a / r_mag : 0.0);
+  if (promised > reading.ratio_u_rel && reading.ratio_u_rel > 0) {
+    m.noise_a_rel *= reading.ratio_u_rel / promised;
+    m.noise_b_rel_a *= reading.ratio_u_rel / promised;
   }
-  a.layout = z_mag_ohm >= 10e3 ? dsp::Layout::part_high : dsp::Layout::part_low;
-  // Only advise a change that matters: a factor of 3 in Rref, or the layout.
-  const bool rref_better = std::abs(std::log(z_mag_ohm / present_rref_ohm)) > std::log(3.0) &&
-                           a.rref_ohm != present_rref_ohm;
-  a.better_than_present = rref_better || a.layout != present_layout;
-  if (!rref_better) a.rref_ohm = present_rref_ohm;
-  if (a.better_than_present) {
-    a.text = "for |Z| = " + format_si(z_mag_ohm, "Ω", 3) + " use Rref " +
-             format_si(a.rref_ohm, "Ω", 3) + " in the " + std::string(dsp::layout_name(a.layout)) +
-             " layout";
-  }
+  m.input_residual_rel = request.input_loading_residual_rel;
+  m.rref_tolerance_rel = request.rref_tolerance_rel;
+  std::vector<double> rrefs = request.rref_set_ohm;
+  if (std::find(rrefs.begin(), rrefs.end(), request.rref_ohm) == rrefs.end())
+    rrefs.push_back(request.rref_ohm);
+  const auto now = dsp::predict_setup(m, z, request.layout, request.rref_ohm);
+  const auto best = dsp::best_setup(m, z, rrefs);
+  a.u_now_rel = 2 * now.u_rel;
+  a.u_advised_rel = 2 * now.u_rel;
+  if (!(now.u_rel > 1.5 * best.u_rel)) return a;
+  a.rref_ohm = best.rref_ohm;
+  a.layout = best.layout;
+  a.u_advised_rel = 2 * best.u_rel;
+  a.better_than_present = true;
+  a.text = "for |Z| = " + format_si(std::abs(z), "Ω", 3) + " use Rref " +
+           format_si(best.rref_ohm, "Ω", 3) + " in the " +
+           std::string(dsp::layout_name(best.layout)) + " layout: predicted ±" +
+           num(a.u_advised_rel * 100, 2) + " % instead of ±" + num(a.u_now_rel * 100, 2) +
+           " % now (k = 2)";
   return a;
 }
 

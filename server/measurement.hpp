@@ -6,6 +6,12 @@
 // is measured at the same frequency and divided out; its own scatter enters the Type B
 // budget. On the simulated bench that connection is made by the bench itself; on a real
 // card the user makes it (a later, guided calibration).
+//
+// Around the reading it checks the signals (dsp/signal_checks.hpp) and reports what it
+// finds as notices: DC offset and hum from the pre-listen (output silent), a test
+// frequency on a mains harmonic, a weak signal, a level lowered for clipping. The test
+// level follows the part class (dsp/test_level.hpp): electrolytics at most 0.5 V rms across
+// the part, in-circuit parts at most 100 mV peak (and the reading is indicative only).
 #pragma once
 
 #include <atomic>
@@ -16,19 +22,38 @@
 
 #include "dsp/fixture_correction.hpp"
 #include "dsp/recording_analysis.hpp"
+#include "dsp/test_level.hpp"
 #include "server/audio_device.hpp"
 
 namespace tb {
 
 struct MeasureRequest {
-  double freq_hz = 1000;    ///< 1 <= f < 0.45 fs; moved to the nearest bin, reported
-  double level_fs = 0.5;    ///< DAC peak, full-scale units, (0, 1]
+  double freq_hz = 1000;  ///< 1 <= f < 0.45 fs; moved to the nearest bin, reported
+  /// DAC peak, full-scale units, (0, 1]; 0 = automatic: a short probe at a low level, then
+  /// the level that puts the larger input near -6 dBFS peak, within level_cap_fs and the
+  /// part class's voltage cap. A fixed level with a capped part class is probed too and
+  /// lowered to the cap when it would pass it.
+  double level_fs = 0.5;
+  double level_cap_fs = 1.0;  ///< highest output level an automatic level may choose, (0, 1]
+  dsp::PartClass part_class = dsp::PartClass::general;
   double duration_s = 1.0;  ///< analysed tone after fade-in and settling
   StreamSpec stream;
   dsp::Layout layout = dsp::Layout::part_low;
   double rref_ohm = 1000;
   double rref_tolerance_rel = 0.001;
-  double volts_per_fs = 0;  ///< peak volts at the inputs' full scale; 0 = unknown
+  /// Peak volts at the inputs' full scale; 0 = unknown. A capped part class (electrolytic,
+  /// in_circuit) needs it: measure_once refuses such a request with 0 (measure.level_unknown).
+  double volts_per_fs = 0;
+  /// True when volts_per_fs comes from a level calibration (a meter reading at node A); false
+  /// when it is a setting, and a capped part class then adds the notice level.uncalibrated.
+  bool level_calibrated = false;
+  double mains_hz = 50;  ///< local mains (50 or 60 Hz), for the hum and near-harmonic checks
+  double rref_tempco_ppm_per_k = 50;  ///< Rref temperature coefficient (metal film), ppm/K
+  double rref_temp_span_k = 5;        ///< how far Rref may sit from its calibration, K
+  double rref_inductance_h = 20e-9;   ///< half-width of Rref's series inductance, H
+  /// Fraction of the card's input loading left after correction, for the advice: 1 = none
+  /// applied (no input-impedance calibration), [0, 1].
+  double input_loading_residual_rel = 1.0;
   /// The reference resistors the jig can switch to, for the advice.
   std::vector<double> rref_set_ohm{1, 10, 100, 1000, 10000, 100000};
   std::optional<dsp::PartKind> force_kind;
@@ -53,10 +78,12 @@ struct ReadingNotice {
 };
 
 struct Advice {
-  double rref_ohm = 0;  ///< the reference of the set nearest |Z| (log scale)
+  double rref_ohm = 0;  ///< the advised reference (the present one when no change is worth it)
   dsp::Layout layout = dsp::Layout::part_low;
-  bool better_than_present = false;
-  std::string text;
+  bool better_than_present = false;  ///< the advised set-up predicts > 1.5x lower uncertainty
+  double u_now_rel = 0;              ///< predicted expanded (k = 2) relative uncertainty of Z now
+  double u_advised_rel = 0;          ///< the same with the advised Rref and layout
+  std::string text;                  ///< empty when no change is advised
 };
 
 struct MeasureResult {
@@ -70,6 +97,8 @@ struct MeasureResult {
   Advice advice;
   double pre_listen_peak_fs = 0;  ///< largest input sample before the tone started
   double level_fs = 0;            ///< output level used (lowered from the request if it clipped)
+  dsp::LevelLimit level_limited_by = dsp::LevelLimit::requested;  ///< what set level_fs
+  bool indicative = false;  ///< in-circuit: no pass/fail verdict may be given on this reading
   std::vector<ReadingNotice> notices;
 };
 
@@ -86,7 +115,12 @@ ChannelMatch measure_channel_match(AudioDevice& device, const MeasureRequest& re
 /// One reading (played again at a third of the level, twice at most, if the capture clips),
 /// with the channel match divided out and, when given, open/short fixture
 /// compensation applied (its standards measured at the same frequency, Rref and layout).
-/// Throws tb::Error (device.*, part.charged, measure.*) or dsp::AnalysisError.
+/// With a capped part class the part voltage of the reading is checked against the cap and
+/// the tone played once more, lower, if a non-linear part passed it.
+/// Notices (ids in docs/errors.md): input.dc_offset, signal.near_mains, signal.hum,
+/// signal.weak, level.lowered, level.uncalibrated, level.above_part_cap, reading.indicative.
+/// Throws tb::Error (device.*, part.charged, measure.* including measure.level_unknown for a
+/// capped part class without volts_per_fs) or dsp::AnalysisError.
 MeasureResult measure_once(AudioDevice& device, const MeasureRequest& request,
                            const std::optional<ChannelMatch>& match,
                            const std::optional<dsp::FixtureStandards>& fixture = std::nullopt);
@@ -103,10 +137,11 @@ struct RawCapture {
 };
 RawCapture capture_uncorrected(AudioDevice& device, const MeasureRequest& request);
 
-/// The reference resistor of `available` (ohm) and the layout that suit an impedance:
-/// |Z| near Rref gives the lowest divider error; high impedances (>= 10 kohm) go in the
-/// part-high layout so the card input loads only the resistor.
-Advice advise(double z_mag_ohm, double present_rref_ohm, dsp::Layout present_layout,
-              const std::vector<double>& available);
+/// The Rref of request.rref_set_ohm (or the present one) and the layout with the lowest
+/// predicted uncertainty for this reading's impedance (dsp/setup_advice.hpp), from the
+/// reading's own noise, the request's Rref tolerance and loading residual. A change is
+/// advised only when it predicts more than 1.5 times lower uncertainty (so near-ties keep
+/// what is on the jig). A reading without a usable |Z| (0 or not finite) gets no advice.
+Advice advise(const dsp::ToneReading& reading, const MeasureRequest& request);
 
 }  // namespace tb

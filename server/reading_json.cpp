@@ -108,10 +108,15 @@ nlohmann::json to_json(const MeasureResult& result, const MeasureRequest& reques
   j["channel_match"] = result.channel_match.has_value();
   j["open_short"] = result.fixture_compensated;
   j["output_level_fs"] = result.level_fs;
-  j["requested_level_fs"] = request.level_fs;
+  j["requested_level_fs"] = request.level_fs;  // 0 = automatic
+  j["level_limited_by"] = std::string(dsp::level_limit_name(result.level_limited_by));
+  j["part_class"] = std::string(dsp::part_class_name(request.part_class));
+  j["indicative"] = result.indicative;
   j["advice"] = {{"change", result.advice.better_than_present},
                  {"rref_ohm", result.advice.rref_ohm},
                  {"layout", std::string(dsp::layout_name(result.advice.layout))},
+                 {"u_now_pct", result.advice.u_now_rel * 100},
+                 {"u_advised_pct", result.advice.u_advised_rel * 100},
                  {"text", result.advice.text}};
   j["warnings"] = nlohmann::json::array();
   for (const auto& n : result.notices)

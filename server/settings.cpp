@@ -135,6 +135,14 @@ const std::vector<SettingSpec>& setting_specs() {
               "the references the jig can switch to (for advice)"),
       numeric("rref_tolerance_pct", T::number, "0.1", 0.001, 10, "%", true,
               "tolerance of the reference resistor"),
+      numeric("rref_tempco_ppm_per_k", T::number, "50", 0, 1000, "", true,
+              "temperature coefficient of the reference resistor, ppm/K (metal film ~50)"),
+      numeric("rref_temp_span_k", T::number, "5", 0, 50, "K", true,
+              "how far the reference resistor's temperature may sit from where its value was "
+              "known, K"),
+      numeric("rref_inductance_h", T::number, "20n", 0, 10e-6, "H", true,
+              "series inductance of the reference resistor, half-width (non-inductive film "
+              "~20 nH)"),
       numeric("freq_hz", T::number, "1000", 10, 96000, "Hz", true,
               "test frequency of single and continuous readings"),
       numeric("level_fs", T::number, "0.3", 0.001, 1, "", true,

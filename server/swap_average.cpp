@@ -75,8 +75,7 @@ MeasureResult measure_swap_averaged(AudioDevice& device, const MeasureRequest& r
   }
   if (out.reading.v_part_rms > 0)
     out.reading.i_part_rms = out.reading.v_part_rms / std::max(out.reading.values.mag_ohm, 1e-300);
-  out.advice =
-      advise(out.reading.values.mag_ohm, request.rref_ohm, request.layout, request.rref_set_ohm);
+  out.advice = advise(out.reading, request);
   return out;
 }
 

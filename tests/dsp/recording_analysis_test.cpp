@@ -1,5 +1,6 @@
 #include "dsp/recording_analysis.hpp"
 
+#include <algorithm>
 #include <catch2/catch.hpp>
 #include <cmath>
 #include <numbers>
@@ -176,4 +177,50 @@ TEST_CASE("a tone whose frequency wanders is refused with a reason", "[analysis]
     CHECK((e.id() == "recording.clock_wander" || e.id() == "recording.no_tone"));
     CHECK_FALSE(e.hint().empty());
   }
+}
+
+TEST_CASE("the reference's tempco and inductance enter the Type B budget", "[analysis]") {
+  // 50 ohm resistor against 100 ohm, part-low, 10 kHz. Z = Rref r / (1 - r) is linear in
+  // Rref (bridge.hpp, divider formula), so dZ/d(Rref, relative) = Z and, for a series
+  // reactance j w L added to Rref, dZ/dL = j w Z / Rref [calc, derived here].
+  JigSignalSpec s;
+  s.freqs_hz = {10000};
+  s.z_of_f = [](double) { return cplx{50, 0}; };
+  s.rref_ohm = 100;
+  s.duration_s = 0.5;
+  const auto sig = make_jig_signal(s);
+  auto c = config_for(s);
+  const auto plain = analyze_recording(sig.a, sig.b, c).readings.at(0);
+  const auto has = [](const ToneReading& r, const std::string& name) {
+    return std::any_of(r.z.type_b.begin(), r.z.type_b.end(),
+                       [&](const TypeBTerm& t) { return t.name == name; });
+  };
+  // Off by default: an offline recording of an unknown jig.
+  CHECK_FALSE(has(plain, "rref_tempco"));
+  CHECK_FALSE(has(plain, "rref_reactance"));
+
+  c.rref_tempco_ppm_per_k = 50;
+  c.rref_temp_span_k = 5;
+  c.rref_inductance_h = 20e-9;
+  const auto r = analyze_recording(sig.a, sig.b, c).readings.at(0);
+  const TypeBTerm* tempco = nullptr;
+  const TypeBTerm* reactance = nullptr;
+  for (const auto& t : r.z.type_b) {
+    if (t.name == "rref_tempco") tempco = &t;
+    if (t.name == "rref_reactance") reactance = &t;
+  }
+  REQUIRE(tempco != nullptr);
+  REQUIRE(reactance != nullptr);
+  // Rectangular half-width a: u = a / sqrt 3 (JCGM 100 4.3.7); a = 50 ppm/K x 5 K.
+  CHECK(tempco->u == Approx(50e-6 * 5 / std::sqrt(3.0)).epsilon(1e-12));
+  CHECK(std::abs(tempco->sensitivity - cplx{50, 0}) < 1e-3);
+  const double w = 2 * std::numbers::pi * 10000;
+  CHECK(reactance->u == Approx(20e-9 / std::sqrt(3.0)).epsilon(1e-12));
+  CHECK(reactance->sensitivity.imag() == Approx(w * 50 / 100).epsilon(1e-4));
+  CHECK(std::abs(reactance->sensitivity.real()) < 1e-4 * w);
+  // The reactance moves X, not R: the uncertainty of Xs grows, that of Rs hardly.
+  CHECK(r.u_x.u_c > plain.u_x.u_c);
+  // Negative values are a bad configuration.
+  c.rref_inductance_h = -1e-9;
+  CHECK_THROWS_AS(analyze_recording(sig.a, sig.b, c), std::invalid_argument);
 }

@@ -1,5 +1,6 @@
 // The service as a black box over HTTP: a real tonebridged on the simulated bench, started
 // and stopped by each test.
+#include <algorithm>
 #include <catch2/catch.hpp>
 
 #include <cmath>
@@ -60,6 +61,12 @@ TEST_CASE("a reading is taken, saved and served as the latest", "[service]") {
   // Uncorrected on a hidden card: within a few per cent of 470 ohm, and it says what
   // corrections are missing.
   CHECK(r.at("z_mag_ohm").get<double>() == Approx(470).epsilon(0.05));
+  const auto count = [&](const std::string& prefix) {
+    return std::count_if(r.at("warnings").begin(), r.at("warnings").end(), [&](const auto& w) {
+      return w.at("id").template get<std::string>().rfind(prefix, 0) == 0;
+    });
+  };
+  CHECK(count("calibration.") == 2);
   CHECK(r.at("warnings").size() == 2);
   const auto latest = svc.get("/api/v1/readings/latest").json();
   CHECK(latest.at("id") == r.at("id"));
@@ -82,6 +89,7 @@ TEST_CASE("calibrations taken through the API correct the following readings", "
     CHECK(c.json().at("points").size() == 1);
   }
   const auto r = reading_now(svc, {{"freq_hz", 1000}});
+  // No correction is missing, and 1 kHz is clear of the strong mains harmonics.
   CHECK(r.at("warnings").empty());
   CHECK(r.at("channel_match") == true);
   CHECK(r.at("open_short") == true);

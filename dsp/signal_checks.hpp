@@ -1,0 +1,70 @@
+// Checks of the signals around one reading that do not stop it but deserve a word to the
+// technician: DC offset at an input, a test frequency on a mains harmonic, hum picked up
+// with the output silent, and a signal too weak for a useful reading. Pure functions over
+// samples (full-scale units) or over a reading's levels; the caller turns the findings
+// into notices.
+#pragma once
+
+#include <span>
+
+namespace tb::dsp {
+
+struct DcOffset {
+  double mean_fs = 0;      ///< mean of the capture, full-scale units (signed)
+  bool excessive = false;  ///< |mean| above the limit
+};
+
+/// DC offset of one input from a capture with the output silent (or whole periods of the
+/// tone). limit_fs >= 0, default 1 % of full scale: an offset takes headroom and, on a
+/// DC-coupled card, biases the part. An empty capture gives 0, not excessive.
+/// Example: check_dc_offset(std::vector<double>(100, 0.02)).excessive == true.
+DcOffset check_dc_offset(std::span<const double> x, double limit_fs = 0.01);
+
+struct MainsProximity {
+  bool near = false;        ///< within guard bins of a harmonic at or below max_harmonic_hz
+  int harmonic = 0;         ///< which harmonic (1 = the mains frequency itself); 0 if none
+  double harmonic_hz = 0;   ///< its frequency
+  double suggested_hz = 0;  ///< nearest frequency on the bin grid clear of every harmonic
+};
+
+/// Whether freq_hz sits within guard_bins * bin_hz (strictly less) of a harmonic n * mains_hz
+/// with n * mains_hz <= max_harmonic_hz. The lock-in rejects hum one or more bins away only
+/// while the hum holds still; mains wanders by a fraction of a hertz, its harmonics n times
+/// as much, so a near neighbour leaks. The suggestion is the other IEC frequency of the
+/// 100/120 Hz pair when that one is clear (IEC 60384-4 allows either), else the nearest
+/// multiple of bin_hz clear of every harmonic (the higher one on a tie).
+/// freq_hz > 0, mains_hz > 0, bin_hz > 0, guard_bins >= 0; otherwise std::invalid_argument.
+/// Example: check_mains_proximity(100, 50, 10).suggested_hz == 120.
+MainsProximity check_mains_proximity(double freq_hz, double mains_hz, double bin_hz,
+                                     double guard_bins = 2, double max_harmonic_hz = 2000);
+
+struct Hum {
+  double total_rms_fs = 0;  ///< rms of all harmonics up to the limit frequency together
+  double worst_hz = 0;      ///< the strongest harmonic
+  double worst_rms_fs = 0;  ///< its rms
+  bool excessive = false;   ///< total above the limit
+};
+
+/// Hum at the mains harmonics up to max_harmonic_hz (below fs/2) in a capture taken with the
+/// output silent, by lock-in over the largest whole number of mains periods the capture
+/// holds (so DC and the other harmonics fall on nulls). limit_rms_fs default -80 dBFS rms:
+/// about 15 dB above the noise floor of a typical 16-bit card input (common practice, no
+/// source). A capture shorter than one mains period gives zeros.
+/// sample_rate_hz > 0, mains_hz > 0; otherwise std::invalid_argument.
+Hum measure_hum(std::span<const double> x, double sample_rate_hz, double mains_hz,
+                double limit_rms_fs = 1e-4, double max_harmonic_hz = 2000);
+
+struct SignalStrength {
+  bool level_low = false;  ///< node B below min_level_fs
+  bool snr_low = false;    ///< either channel's per-block SNR below min_snr_db
+  bool weak() const { return level_low || snr_low; }
+};
+
+/// Whether a reading's signals are too weak to trust. Below about -60 dBFS at node B
+/// (default 1e-3 peak) the card's crosstalk (down to -75 dB of node A) and distortion
+/// become per-cent errors that its scatter does not show; below 40 dB per-block SNR the
+/// reading scatters by more than about 1 % per block (common practice, no source).
+SignalStrength check_signal_strength(double level_b_fs, double snr_a_db, double snr_b_db,
+                                     double min_level_fs = 1e-3, double min_snr_db = 40);
+
+}  // namespace tb::dsp
