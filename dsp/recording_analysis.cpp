@@ -385,6 +385,19 @@ AnalysisResult analyze_recording(std::span<const double> a, std::span<const doub
                        [](BridgeConfig& c, double h) { c.channel_match *= std::polar(1.0, h); }),
            config.channel_phase_u_rad});
     }
+    if (config.channel_interp_gain_u_rel > 0) {
+      r.z.type_b.push_back(
+          {"interpolation_gain",
+           sensitivity(bc, r.ratio, [](BridgeConfig& c, double h) { c.channel_match *= 1 + h; }),
+           config.channel_interp_gain_u_rel});
+    }
+    if (config.channel_interp_phase_u_rad > 0) {
+      r.z.type_b.push_back(
+          {"interpolation_phase",
+           sensitivity(bc, r.ratio,
+                       [](BridgeConfig& c, double h) { c.channel_match *= std::polar(1.0, h); }),
+           config.channel_interp_phase_u_rad});
+    }
 
     update_derived(r, config.force_kind);
 

@@ -53,8 +53,11 @@ struct AnalysisConfig {
   /// bridge.input_impedance_ohm.
   std::optional<InputLoad> input_load;
   double input_impedance_u_rel = 0.05;  ///< standard uncertainty of the input impedance, relative
-  double channel_gain_u_rel = 0;       ///< standard uncertainty of the channel-match gain, relative
-  double channel_phase_u_rad = 0;      ///< standard uncertainty of the channel-match phase
+  double channel_gain_u_rel = 0;   ///< standard uncertainty of the channel-match gain, relative
+  double channel_phase_u_rad = 0;  ///< standard uncertainty of the channel-match phase
+  /// Standard uncertainty of the channel match's interpolation between its calibration
+  /// frequencies (calibration_curve.hpp), gain relative and phase; separate budget terms.
+  double channel_interp_gain_u_rel = 0, channel_interp_phase_u_rad = 0;
   double volts_per_fs = 0;             ///< peak volts at full scale; 0 = level unknown
   std::vector<double> tones_hz;        ///< analyse these (approximate) frequencies; empty = find
   double min_tone_db = -40;            ///< weakest tone kept, relative to the strongest

@@ -18,6 +18,7 @@ ReadingTask reading_task(const nlohmann::json& b) {
   t.level_fs = api::opt_number(b, "level_fs");
   t.duration_s = api::opt_number(b, "duration_s");
   t.part_id = api::opt_id(b, "part_id");
+  t.swap_average = api::opt_bool(b, "swap_average").value_or(false);
   if (auto k = api::opt_text(b, "kind")) {
     t.force_kind = dsp::parse_part_kind(*k);
     if (!t.force_kind) {
@@ -49,7 +50,7 @@ void add_reading_routes(std::vector<Route>& r) {
                [](ApiContext& ctx, const httplib::Request& req) {
                  const auto b =
                      api::parse_body(req.body, {"freq_hz", "level_fs", "duration_s", "kind",
-                                                "part_class", "part_id", "wait"});
+                                                "part_class", "part_id", "swap_average", "wait"});
                  const auto task = reading_task(b);
                  check_part(ctx.store, task.part_id);
                  const auto queued = ctx.engine.submit(task);
@@ -116,7 +117,7 @@ void add_reading_routes(std::vector<Route>& r) {
                [](ApiContext& ctx, const httplib::Request& req) {
                  const auto b =
                      api::parse_body(req.body, {"per_s", "freq_hz", "level_fs", "duration_s",
-                                                "kind", "part_class", "part_id"});
+                                                "kind", "part_class", "part_id", "swap_average"});
                  WatchTask w;
                  w.each = reading_task(b);
                  w.per_s = api::opt_number(b, "per_s").value_or(1.0);

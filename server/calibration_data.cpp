@@ -1,25 +1,76 @@
 #include "server/calibration_data.hpp"
 
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <ctime>
 #include <limits>
 #include <sstream>
 
+#include "dsp/calibration_curve.hpp"
 #include "server/error.hpp"
 
 namespace tb {
 
 namespace {
 
-const nlohmann::json* point_at(const CalibrationRecord& c, double freq_hz) {
+const nlohmann::json& points_of(const CalibrationRecord& c) {
+  static const nlohmann::json none = nlohmann::json::array();
   const auto it = c.body.find("points");
-  if (it == c.body.end() || !it->is_array()) return nullptr;
-  for (const auto& p : *it) {
-    const double f = p.value("freq_hz", 0.0);
-    if (f > 0 && std::abs(f - freq_hz) <= 1e-3 * freq_hz) return &p;
+  return it != c.body.end() && it->is_array() ? *it : none;
+}
+
+// A step's points in ascending frequency (a step is taken on a sorted grid, but a record
+// written by hand or an older version need not be).
+std::vector<nlohmann::json> sorted_points(const CalibrationRecord& c) {
+  std::vector<nlohmann::json> p(points_of(c).begin(), points_of(c).end());
+  std::sort(p.begin(), p.end(), [](const auto& x, const auto& y) {
+    return x.value("freq_hz", 0.0) < y.value("freq_hz", 0.0);
+  });
+  return p;
+}
+
+std::vector<dsp::MatchPoint> match_points(const CalibrationRecord& c) {
+  std::vector<dsp::MatchPoint> out;
+  for (const auto& p : sorted_points(c)) {
+    out.push_back({p.value("freq_hz", 0.0),
+                   {p.value("h_re", 1.0), p.value("h_im", 0.0)},
+                   p.value("u_gain_rel", 0.0),
+                   p.value("u_phase_rad", 0.0)});
   }
-  return nullptr;
+  return out;
+}
+
+std::vector<dsp::ImpedancePoint> impedance_points(const CalibrationRecord& c) {
+  std::vector<dsp::ImpedancePoint> out;
+  for (const auto& p : sorted_points(c))
+    out.push_back({p.value("freq_hz", 0.0), uncertain_complex_from_json(p.at("z"))});
+  return out;
+}
+
+// Node A's level per unit of output at freq_hz, linear in log f between the step's points
+// (it changes slowly: the card's output impedance); 0 when the step did not record it or
+// freq_hz is outside its points.
+double a_per_fs_at(const CalibrationRecord& c, double freq_hz) {
+  const auto p = sorted_points(c);
+  for (std::size_t i = 0; i < p.size(); ++i) {
+    const double f1 = p[i].value("freq_hz", 0.0), a1 = p[i].value("a_per_fs", 0.0);
+    if (std::abs(f1 - freq_hz) <= 1e-3 * freq_hz) return a1;
+    if (i + 1 == p.size() || !(f1 < freq_hz)) continue;
+    const double f2 = p[i + 1].value("freq_hz", 0.0), a2 = p[i + 1].value("a_per_fs", 0.0);
+    if (!(freq_hz < f2) || !(a1 > 0) || !(a2 > 0)) continue;
+    const double t = std::log(freq_hz / f1) / std::log(f2 / f1);
+    return a1 + t * (a2 - a1);
+  }
+  return 0;
+}
+
+std::string range_of(const CalibrationRecord& c) {
+  const auto p = sorted_points(c);
+  if (p.empty()) return "no frequencies";
+  std::ostringstream o;
+  o << p.front().value("freq_hz", 0.0) << " Hz to " << p.back().value("freq_hz", 0.0) << " Hz";
+  return o.str();
 }
 
 nlohmann::json used(const CalibrationRecord& c) {
@@ -117,10 +168,6 @@ std::optional<CalibrationRecord> other_setup(const std::vector<CalibrationRecord
   return std::nullopt;
 }
 
-double a_per_fs(const nlohmann::json& point) {
-  return point.value("a_per_fs", 0.0);
-}
-
 }  // namespace
 
 Corrections find_corrections(const Store& store, const CalibrationKey& key, double freq_hz,
@@ -150,14 +197,25 @@ Corrections find_corrections(const Store& store, const CalibrationKey& key, doub
     out.missing.push_back(std::move(notice));
   };
 
-  if (const auto cm = latest("channel_match"); cm && point_at(*cm, freq_hz)) {
-    const auto& p = *point_at(*cm, freq_hz);
+  const auto cm = latest("channel_match");
+  const auto est = cm ? dsp::interpolate_match(match_points(*cm), freq_hz) : std::nullopt;
+  if (est) {
     ChannelMatch m;
-    m.h = {p.value("h_re", 1.0), p.value("h_im", 0.0)};
-    m.u_gain_rel = p.value("u_gain_rel", 0.0);
-    m.u_phase_rad = p.value("u_phase_rad", 0.0);
+    m.h = est->h;
+    m.u_gain_rel = est->u_gain_rel;
+    m.u_phase_rad = est->u_phase_rad;
+    m.interp_gain_u_rel = dsp::rectangular_u(est->interp_gain_half_rel);
+    m.interp_phase_u_rad = dsp::rectangular_u(est->interp_phase_half_rad);
     out.match = m;
     note_use("channel_match", *cm);
+  } else if (cm) {
+    note_missing("channel_match",
+                 {"calibration.no_channel_match",
+                  "the channel match covers " + range_of(*cm) + ", not " +
+                      std::to_string(static_cast<int>(std::lround(freq_hz))) +
+                      " Hz: the two inputs' mismatch is not divided out",
+                  "take the channel-match calibration on the default grid, or at this "
+                  "frequency"});
   } else {
     note_missing("channel_match",
                  {"calibration.no_channel_match",
@@ -167,26 +225,29 @@ Corrections find_corrections(const Store& store, const CalibrationKey& key, doub
   }
   const auto open = latest("open");
   const auto shorted = latest("short");
-  const auto* po = open ? point_at(*open, freq_hz) : nullptr;
-  const auto* ps = shorted ? point_at(*shorted, freq_hz) : nullptr;
-  if (po && ps) {
+  const auto zo = open ? dsp::interpolate_open(impedance_points(*open), freq_hz) : std::nullopt;
+  const auto zs =
+      shorted ? dsp::interpolate_short(impedance_points(*shorted), freq_hz) : std::nullopt;
+  if (zo && zs) {
     dsp::FixtureStandards s;
-    s.open = uncertain_complex_from_json(po->at("z"));
-    s.short_ = uncertain_complex_from_json(ps->at("z"));
+    s.open = *zo;
+    s.short_ = *zs;
     s.reconnect_half_width_ohm = policy.reconnect_half_width_ohm;
     out.fixture = s;
     note_use("open", *open);
     note_use("short", *shorted);
-    if (a_per_fs(*po) > 0 && a_per_fs(*ps) > 0) {
-      out.source =
-          dsp::SourceReference{a_per_fs(*po), a_per_fs(*ps), 1.0 / (key.rref_ohm + s.short_.value)};
-    }
+    const double ao = a_per_fs_at(*open, freq_hz), as = a_per_fs_at(*shorted, freq_hz);
+    if (ao > 0 && as > 0)
+      out.source = dsp::SourceReference{ao, as, 1.0 / (key.rref_ohm + s.short_.value)};
   } else {
-    note_missing(open && po ? "short" : "open",
+    const char* lacking = zo ? "short" : "open";
+    note_missing(lacking,
                  {"calibration.no_open_short",
-                  "no open/short compensation at this frequency, layout and Rref: the leads "
-                  "and the card's input loading are not corrected",
-                  "take the open and short calibrations"});
+                  std::string("no ") + lacking +
+                      " calibration covering this frequency, layout and Rref: the leads and "
+                      "the card's input loading are not corrected",
+                  "take the open and short calibrations (on the default grid they cover "
+                  "20 Hz to 0.4 of the sample rate)"});
   }
   if (const auto level =
           store.latest_calibration("level", key.device, key.sample_rate_hz, kAnyLayout, 0)) {

@@ -271,7 +271,7 @@ void Engine::execute(Queued& q) {
   try {
     if (const auto* r = std::get_if<ReadingTask>(&q.request)) {
       info.total = 1;
-      info.result = run_reading(*r, s, "single", info.id);
+      info.result = run_reading(*r, s, "single", info.id, &info);
       info.done = 1;
     } else if (const auto* w = std::get_if<WatchTask>(&q.request)) {
       info.result = run_watch(*w, s, info);

@@ -110,14 +110,18 @@ class Engine {
   void await_user(TaskInfo& info, const std::string& prompt, double timeout_s = 600);
 
   // Task bodies (engine_runs.cpp).
+  /// `info`: the task, for prompts (swap-and-average); null inside a watch.
   nlohmann::json run_reading(const ReadingTask& t, const Settings& s, const char* origin,
-                             std::int64_t task_id);
+                             std::int64_t task_id, TaskInfo* info = nullptr);
   nlohmann::json run_watch(const WatchTask& t, const Settings& s, TaskInfo& info);
   nlohmann::json run_sweep(const SweepTask& t, const Settings& s, TaskInfo& info);
   nlohmann::json run_calibration(const CalibrationTask& t, const Settings& s, TaskInfo& info);
   nlohmann::json run_bench_part(const BenchPartTask& t);
   nlohmann::json run_tone(const ToneTask& t, const Settings& s, TaskInfo& info);
-  void rewire_bench(const Settings& s);
+  void rewire_bench(const Settings& s, bool inputs_swapped = false);
+  /// Makes a swap-and-average reading's connection: the simulated bench rewires itself
+  /// (after a prompt, with sim_prompts), a real jig waits for the technician.
+  void connect_inputs(const Settings& s, TaskInfo* info, bool swapped);
 
   std::unique_ptr<AudioDevice> device_;
   SimulatedCard* bench_ = nullptr;  // the device, when it is the simulated bench

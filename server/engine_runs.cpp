@@ -15,6 +15,7 @@
 #include "server/reading_budget.hpp"
 #include "server/reading_json.hpp"
 #include "server/simulated_card.hpp"
+#include "server/swap_average.hpp"
 
 namespace tb {
 
@@ -60,7 +61,10 @@ Corrections corrections_for(const Store* store, const std::string& device, Measu
                                    {.reconnect_half_width_ohm = reconnect_half_width_ohm,
                                     .max_age_h = s.number("calibration_max_age_h"),
                                     .now_iso = utc_now_iso()});
-  if (c.volts_per_fs) req.volts_per_fs = *c.volts_per_fs;
+  if (c.volts_per_fs) {
+    req.volts_per_fs = *c.volts_per_fs;
+    req.level_calibrated = true;
+  }
   return c;
 }
 
@@ -90,16 +94,31 @@ nlohmann::json error_json(const ErrorInfo& e) {
 
 }  // namespace
 
-void Engine::rewire_bench(const Settings& s) {
+void Engine::rewire_bench(const Settings& s, bool inputs_swapped) {
   if (!bench_) return;
   dsp::JigSetup jig;
   jig.layout = *dsp::parse_layout(s.text("layout"));
   jig.rref_ohm = s.number("rref_ohm");
+  jig.inputs_swapped = inputs_swapped;
   bench_->reconnect(jig, dsp::parse_part(bench_part_).netlist);
 }
 
+void Engine::connect_inputs(const Settings& s, TaskInfo* info, bool swapped) {
+  const bool ask = !bench_ || s.boolean("sim_prompts");
+  if (ask && info) {
+    await_user(*info, swapped ? "swap the two input leads: input 1 onto node B and input 2 "
+                                "onto node A, then continue"
+                              : "put the input leads back: input 1 onto node A and input 2 "
+                                "onto node B, then continue");
+  } else if (ask) {
+    throw Error("request.bad_value", "this reading needs the technician to swap the inputs",
+                "take it as a single reading, which can ask");
+  }
+  rewire_bench(s, swapped);
+}
+
 nlohmann::json Engine::run_reading(const ReadingTask& t, const Settings& s, const char* origin,
-                                   std::int64_t task_id) {
+                                   std::int64_t task_id, TaskInfo* info) {
   rewire_bench(s);
   auto req = request_from(s, t.freq_hz, t.level_fs, t.duration_s);
   req.force_kind = t.force_kind;
@@ -108,8 +127,30 @@ nlohmann::json Engine::run_reading(const ReadingTask& t, const Settings& s, cons
   // part under its voltage cap from the first tone on.
   if (dsp::part_voltage_cap_vrms(req.part_class) && !t.level_fs) req.level_fs = 0;
   req.cancel = &cancel_current_;
-  const Corrections corr = corrections_for(store_, device_id(), req, s, kReconnectHalfWidthOhm);
-  auto result = measure_once(*device_, req, corr.match, corr.fixture);
+  Corrections corr = corrections_for(store_, device_id(), req, s, kReconnectHalfWidthOhm);
+  MeasureResult result;
+  if (t.swap_average) {
+    // The inputs start as wired; the first call makes no change.
+    bool swapped = false;
+    auto connect = [&](bool want) {
+      if (want != swapped) connect_inputs(s, info, want);
+      swapped = want;
+    };
+    try {
+      result = measure_swap_averaged(*device_, req, corr.fixture, connect);
+    } catch (...) {
+      if (bench_) rewire_bench(s);
+      throw;
+    }
+    connect(false);
+    // The mismatch cancels here: a missing channel match is no loss.
+    corr.match.reset();
+    corr.used.erase("channel_match");
+    std::erase_if(corr.missing,
+                  [](const ReadingNotice& n) { return n.id == "calibration.no_channel_match"; });
+  } else {
+    result = measure_once(*device_, req, corr.match, corr.fixture);
+  }
   EngineEvent e{"reading", reading_json(result, req, corr, s)};
   e.data["origin"] = origin;
   e.data["task_id"] = task_id;

@@ -80,6 +80,10 @@ void validate(const TaskRequest& t, const Settings& s) {
   if (const auto* r = std::get_if<ReadingTask>(&t)) lim.reading(*r);
   if (const auto* w = std::get_if<WatchTask>(&t)) {
     lim.reading(w->each);
+    if (w->each.swap_average) {
+      throw Error("request.bad_value", "continuous readings cannot swap-and-average",
+                  "take single readings with swap_average, or watch without it");
+    }
     in_range("per_s", w->per_s, 0.01, s.number("readings_per_s_max"),
              "readings per second; readings_per_s_max caps it");
   }
@@ -156,6 +160,7 @@ nlohmann::json reading_json(const ReadingTask& r) {
   put(j, "duration_s", r.duration_s);
   if (r.force_kind) j["kind"] = std::string(dsp::part_kind_name(*r.force_kind));
   if (r.part_class) j["part_class"] = std::string(dsp::part_class_name(*r.part_class));
+  if (r.swap_average) j["swap_average"] = true;
   if (r.part_id) j["part_id"] = *r.part_id;
   return j;
 }

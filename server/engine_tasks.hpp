@@ -25,6 +25,10 @@ struct ReadingTask {
   std::optional<dsp::PartKind> force_kind;
   std::optional<dsp::PartClass> part_class;
   std::optional<std::int64_t> part_id;
+  /// Swap-and-average (server/swap_average.hpp): a second capture with the inputs
+  /// swapped; no channel match needed. On a real jig the task asks the technician to swap
+  /// the inputs and to put them back (prompts). Single readings only, not watch.
+  bool swap_average = false;
 };
 
 /// Readings one after another, at most per_s per second, until cancelled.

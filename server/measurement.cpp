@@ -293,6 +293,8 @@ MeasureResult measure_once(AudioDevice& device, const MeasureRequest& request,
     config.bridge.channel_match = match->h;
     config.channel_gain_u_rel = match->u_gain_rel;
     config.channel_phase_u_rad = match->u_phase_rad;
+    config.channel_interp_gain_u_rel = match->interp_gain_u_rel;
+    config.channel_interp_phase_u_rad = match->interp_phase_u_rad;
     out.channel_match = match;
   }
   dsp::LevelChoice level{request.level_fs, dsp::LevelLimit::requested};

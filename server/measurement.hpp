@@ -65,6 +65,8 @@ struct MeasureRequest {
 struct ChannelMatch {
   std::complex<double> h{1, 0};  ///< V_B / V_A with both inputs on node A
   double u_gain_rel = 0, u_phase_rad = 0;
+  /// Between calibration frequencies: the interpolation's standard uncertainty.
+  double interp_gain_u_rel = 0, interp_phase_u_rad = 0;
   double level_a_fs = 0;  ///< peak level at node A during the step, full-scale units
   double level_fs = 0;    ///< output level the step used
 };

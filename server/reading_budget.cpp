@@ -40,15 +40,18 @@ void add_correction_terms(MeasureResult& result, const MeasureRequest& request,
       // A singular bridge at this ratio: the reading itself already failed or said so.
     }
   }
+  // part-low: Zm = Z / (1 + Z y), dZm/dy = -Z^2; part-high: Rref || Zin scales Z,
+  // dZ/dy = -Z Rref.
+  const cplx zv = z.value;
+  const double y_max = 1 / policy.input_impedance_min_ohm;
+  const cplx s_load = request.layout == dsp::Layout::part_low ? -zv * zv : -zv * request.rref_ohm;
   if (!corrections.fixture) {
-    const cplx zv = z.value;
-    const double y_max = 1 / policy.input_impedance_min_ohm;
-    // part-low: Zm = Z / (1 + Z y), dZm/dy = -Z^2; part-high: Rref || Zin scales Z,
-    // dZ/dy = -Z Rref.
-    const cplx s = request.layout == dsp::Layout::part_low ? -zv * zv : -zv * request.rref_ohm;
-    z.type_b.push_back({"card_input_impedance", s, y_max / std::sqrt(3.0)});
+    z.type_b.push_back({"card_input_impedance", s_load, y_max / std::sqrt(3.0)});
     z.type_b.push_back(
         {"leads_uncorrected", cplx(1, 0), policy.leads_half_width_ohm / std::sqrt(3.0)});
+    added = true;
+  } else if (result.swap_averaged) {
+    z.type_b.push_back({"swap_input_loading", s_load, y_max / 2 / std::sqrt(3.0)});
     added = true;
   }
   if (added) dsp::update_derived(result.reading, request.force_kind);

@@ -7,7 +7,10 @@
 //                         admittance lies between 0 and 1 / (the lowest input impedance
 //                         a card has, 10 kohm: common practice, no source);
 //   leads_uncorrected     without open/short, the leads' and clips' resistance (up to
-//                         0.1 ohm for the pair: common practice, no source).
+//                         0.1 ohm for the pair: common practice, no source);
+//   swap_input_loading    a swap-and-average reading is loaded by the mean of the two
+//                         inputs' admittances, the open step by input 2's alone: the
+//                         difference, up to half of 1 / 10 kohm, is not compensated.
 // Sensitivities are taken through the whole correction chain (bridge, channel match,
 // compensation) by finite differences of the raw channel ratio.
 #pragma once

@@ -106,6 +106,7 @@ nlohmann::json to_json(const MeasureResult& result, const MeasureRequest& reques
   j["rref_ohm"] = request.rref_ohm;
   j["rref_tolerance_pct"] = request.rref_tolerance_rel * 100;
   j["channel_match"] = result.channel_match.has_value();
+  j["swap_averaged"] = result.swap_averaged;
   j["open_short"] = result.fixture_compensated;
   j["output_level_fs"] = result.level_fs;
   j["requested_level_fs"] = request.level_fs;  // 0 = automatic

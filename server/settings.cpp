@@ -171,6 +171,9 @@ const std::vector<SettingSpec>& setting_specs() {
              "the part on the simulated jig (docs/parts.md)", TextRule::non_empty),
       worded("sim_real_time", T::boolean, "true", {}, "", false,
              "pace the simulated card to the wall clock"),
+      worded("sim_prompts", T::boolean, "false", {}, "", true,
+             "the simulated bench asks for connections as a real jig does (a swap-and-average "
+             "reading's input swap) and makes them when continued"),
       numeric("max_body_bytes", T::integer, "65536", 1024, 1048576, "", false,
               "largest request body, bytes"),
       numeric("max_event_clients", T::integer, "64", 1, 256, "", false,

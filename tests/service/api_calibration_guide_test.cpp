@@ -4,6 +4,7 @@
 
 #include <cmath>
 #include <numbers>
+#include <set>
 
 #include "tests/support/run_command.hpp"
 #include "tests/support/service_process.hpp"
@@ -71,6 +72,23 @@ TEST_CASE("the guide lists the steps with what to connect and follows what is sa
   const auto r = reading_now(svc);
   CHECK(r.at("warnings").empty());
   CHECK(r.at("corrections").contains("short"));
+
+  // Between grid points (1.5 kHz lies between 1 and 2 kHz) the corrections are
+  // interpolated: no warning, interpolation terms in the budget, and the truth (the
+  // part's own 220 ohm; the hidden Rref is within 0.1 %) inside the stated U.
+  const auto between = svc.post("/api/v1/readings", {{"wait", true}, {"freq_hz", 1500}});
+  REQUIRE(between.status == 201);
+  const auto b = between.json();
+  CHECK(b.at("warnings").empty());
+  std::set<std::string> terms;
+  for (const auto& t : b.at("uncertainty").at("budget"))
+    terms.insert(t.at("name").get<std::string>());
+  CHECK(terms.count("interpolation_gain") == 1);
+  CHECK(terms.count("interpolation_r") == 1);
+  CHECK(terms.count("rref_tolerance") == 1);
+  CHECK(terms.count("calibration_drift") == 1);
+  CHECK(std::abs(b.at("z_mag_ohm").get<double>() - 220) <=
+        b.at("uncertainty").at("z_mag_ohm").get<double>());
 }
 
 TEST_CASE("the level step turns full scale into volts for the readings that follow", "[service]") {
