@@ -79,7 +79,7 @@ double pre_listen(AudioDevice& device, const StreamSpec& spec, double seconds,
 ChannelMatch measure_channel_match(AudioDevice& device, const MeasureRequest& request);
 
 /// One reading (played again at a third of the level, twice at most, if the capture clips),
-/// with the channel match divided out and, when given, open/short fixture
+/// with the channel match divided out and, when given, open/short(/load) fixture
 /// compensation applied (its standards measured at the same frequency, Rref and layout).
 /// Throws tb::Error (device.*, part.charged, measure.*) or dsp::AnalysisError.
 MeasureResult measure_once(AudioDevice& device, const MeasureRequest& request,
