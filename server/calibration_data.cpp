@@ -233,9 +233,18 @@ Corrections find_corrections(const Store& store, const CalibrationKey& key, doub
     s.open = *zo;
     s.short_ = *zs;
     s.reconnect_half_width_ohm = policy.reconnect_half_width_ohm;
-    out.fixture = s;
     note_use("open", *open);
     note_use("short", *shorted);
+    // The load, when taken for this set-up, sets the absolute scale (open/short/load).
+    if (const auto load = latest("load")) {
+      const double known = load->body.value("load_ohm", 0.0);
+      if (const auto zl = dsp::interpolate_load(impedance_points(*load), freq_hz);
+          zl && known > 0) {
+        s.load = dsp::LoadStandard{*zl, known, load->body.value("load_tolerance_rel", 0.0)};
+        note_use("load", *load);
+      }
+    }
+    out.fixture = s;
     const double ao = a_per_fs_at(*open, freq_hz), as = a_per_fs_at(*shorted, freq_hz);
     if (ao > 0 && as > 0)
       out.source = dsp::SourceReference{ao, as, 1.0 / (key.rref_ohm + s.short_.value)};

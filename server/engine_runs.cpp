@@ -80,6 +80,7 @@ nlohmann::json reading_json(MeasureResult& result, const MeasureRequest& req,
   check_level_drift(corr, result, req, result.notices);
   auto j = to_json(result, req);
   j["corrections"] = corr.used;
+  j["load_compensated"] = result.fixture_compensated && corr.fixture && corr.fixture->load;
   for (const auto& n : corr.missing)
     j["warnings"].push_back(to_json(n));
   j["level_source"] = corr.volts_per_fs      ? "calibration"

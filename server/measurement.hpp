@@ -115,7 +115,7 @@ double pre_listen(AudioDevice& device, const StreamSpec& spec, double seconds,
 ChannelMatch measure_channel_match(AudioDevice& device, const MeasureRequest& request);
 
 /// One reading (played again at a third of the level, twice at most, if the capture clips),
-/// with the channel match divided out and, when given, open/short fixture
+/// with the channel match divided out and, when given, open/short(/load) fixture
 /// compensation applied (its standards measured at the same frequency, Rref and layout).
 /// With a capped part class the part voltage of the reading is checked against the cap and
 /// the tone played once more, lower, if a non-linear part passed it.

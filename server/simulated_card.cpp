@@ -115,6 +115,11 @@ void SimulatedCard::set_input_gain(int input, double gain) {
   config_.card.in_gain[input] = gain;
 }
 
+double SimulatedCard::circuit_frequency_hz(double freq_hz, double sample_rate_hz) {
+  const double dt = 1.0 / (sample_rate_hz * static_cast<double>(kOversample));
+  return std::tan(std::numbers::pi * freq_hz * dt) / (std::numbers::pi * dt);
+}
+
 double SimulatedCard::true_rref_ohm(double nominal_ohm) {
   auto it = rref_true_.find(nominal_ohm);
   if (it == rref_true_.end()) {

@@ -70,6 +70,13 @@ class SimulatedCard final : public AudioDevice {
   const dsp::CardFaults& card() const { return config_.card; }
   /// True value of the reference resistor with this nominal value (teaching output only).
   double true_rref_ohm(double nominal_ohm);
+  /// The frequency at which the bench's circuit answers a tone of freq_hz played at
+  /// sample_rate_hz (both > 0, freq_hz < sample_rate_hz / 2): its trapezoidal steps are the
+  /// bilinear map, so in steady state every element sees tan(pi f dt) / (pi dt), dt the
+  /// internal step, a little above f ((2 pi f dt)^2 / 12 relative: 1.4e-4 at 10 kHz and
+  /// 48 kHz). The part on the bench is exactly part_impedance(part, this frequency): the
+  /// truth to compare a reading with (teaching and test output only).
+  static double circuit_frequency_hz(double freq_hz, double sample_rate_hz);
   /// Lead resistances of the present connection (for teaching output only).
   double lead_hot_ohm() const { return config_.jig.lead_hot_ohm; }
 

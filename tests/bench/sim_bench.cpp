@@ -44,6 +44,7 @@
 #include "server/error.hpp"
 #include "server/measurement.hpp"
 #include "server/simulated_card.hpp"
+#include "tests/bench/bench_common.hpp"
 
 namespace {
 
@@ -65,64 +66,28 @@ struct Options {
 // ---------------------------------------------------------------------------------------
 // Parts and their truth
 
-enum class Family { resistor, capacitor, inductor };
-
-const char* family_name(Family f) {
-  switch (f) {
-    case Family::resistor:
-      return "resistor";
-    case Family::capacitor:
-      return "capacitor";
-    case Family::inductor:
-      return "inductor";
-  }
-  return "?";
-}
+using tb::bench::Family;
+using tb::bench::family_name;
+using tb::bench::Outcome;
+using tb::bench::si;
 
 std::string part_text(Family f, double z_mag) {
-  const double w = 2 * std::numbers::pi * kFreqHz;
-  char buf[128];
-  switch (f) {
-    case Family::resistor:
-      std::snprintf(buf, sizeof buf, "res %.6g", z_mag);
-      break;
-    case Family::capacitor:
-      std::snprintf(buf, sizeof buf, "cap %.6g esr %.6g", 1 / (w * z_mag), kLossRatio * z_mag);
-      break;
-    case Family::inductor:
-      std::snprintf(buf, sizeof buf, "coil %.6g r %.6g", z_mag / w, kLossRatio * z_mag);
-      break;
-  }
-  return buf;
+  return tb::bench::part_text(f, z_mag, kFreqHz, kLossRatio);
 }
 
 double nearest_rref(double z_mag) {
-  double best = kRrefSet.front();
-  for (double r : kRrefSet)
-    if (std::abs(std::log(z_mag / r)) < std::abs(std::log(z_mag / best)) - 1e-12) best = r;
-  return best;
+  return tb::bench::nearest_of(z_mag, kRrefSet);
 }
 
 // ---------------------------------------------------------------------------------------
 // One reading on a simulated card
-
-struct Outcome {
-  bool ok = false;
-  std::string failure;  // error id when !ok
-  double mag_err_pct = 0, theta_err_deg = 0;
-  double u_mag_pct = 0, u_theta_deg = 0;  // expanded (k = 2)
-  bool within_u() const {
-    return ok && std::abs(mag_err_pct) <= u_mag_pct && std::abs(theta_err_deg) <= u_theta_deg;
-  }
-};
 
 int g_readings = 0;  // readings taken (each with its channel-match step)
 
 Outcome read_part(const tb::dsp::CardFaults& card, std::uint64_t noise_seed,
                   const tb::dsp::Netlist& part, double rref, const Options& opt) {
   ++g_readings;
-  Outcome o;
-  try {
+  return tb::bench::read_against_truth(part, tb::StreamSpec{}.sample_rate_hz, [&] {
     tb::SimulatedBenchConfig cfg;
     cfg.card = card;
     cfg.jig.layout = tb::dsp::Layout::part_low;
@@ -139,37 +104,15 @@ Outcome read_part(const tb::dsp::CardFaults& card, std::uint64_t noise_seed,
 
     // Channel match: both inputs moved onto node A with the part left in place, then the
     // part connection restored (each reconnection moves the leads a little).
-    tb::MeasureResult result;
-    if (opt.open_short) {
-      result = tb::measure_on_bench(sim, cfg.jig, part, req, {});
-    } else {
-      tb::dsp::JigSetup jig = cfg.jig;
-      jig.inputs_on_node_a = true;
-      sim.reconnect(jig, part);
-      const auto match = tb::measure_channel_match(sim, req);
-      jig.inputs_on_node_a = false;
-      sim.reconnect(jig, part);
-      result = tb::measure_once(sim, req, match);
-    }
-
-    const auto& r = result.reading;
-    const cplx truth = tb::dsp::part_impedance(part, r.freq_hz);
-    const cplx z = r.z.value;
-    o.mag_err_pct = 100 * (std::abs(z) / std::abs(truth) - 1);
-    o.theta_err_deg = std::arg(z / truth) * 180 / std::numbers::pi;
-    o.u_mag_pct = 100 * r.u_mag.expanded / std::abs(z);
-    o.u_theta_deg = r.u_theta_deg.expanded;
-    o.ok = true;
-  } catch (const tb::Error& e) {
-    o.failure = e.id();
-  } catch (const tb::dsp::AnalysisError& e) {
-    o.failure = e.id();
-  } catch (const tb::dsp::CircuitError& e) {
-    o.failure = e.id();
-  } catch (const std::exception& e) {
-    o.failure = e.what();
-  }
-  return o;
+    if (opt.open_short) return tb::measure_on_bench(sim, cfg.jig, part, req, {});
+    tb::dsp::JigSetup jig = cfg.jig;
+    jig.inputs_on_node_a = true;
+    sim.reconnect(jig, part);
+    const auto match = tb::measure_channel_match(sim, req);
+    jig.inputs_on_node_a = false;
+    sim.reconnect(jig, part);
+    return tb::measure_once(sim, req, match);
+  });
 }
 
 struct Point {
@@ -193,15 +136,6 @@ std::vector<Point> ladder(const Options& opt) {
 
 std::uint64_t noise_seed_for(std::uint64_t card_seed) {
   return card_seed * 1000003 + 11;
-}
-
-std::string si(double v) {
-  char buf[32];
-  if (v >= 1e3)
-    std::snprintf(buf, sizeof buf, "%gk", v / 1e3);
-  else
-    std::snprintf(buf, sizeof buf, "%g", v);
-  return buf;
 }
 
 // ---------------------------------------------------------------------------------------
@@ -502,18 +436,6 @@ void speed(const Options& opt) {
   std::printf("\n(%g s of audio per run, best of %d runs)\n\n", opt.render_s, opt.render_runs);
 }
 
-std::string cpu_model() {
-  std::ifstream in("/proc/cpuinfo");
-  std::string line;
-  while (std::getline(in, line)) {
-    if (line.rfind("model name", 0) == 0) {
-      const auto colon = line.find(':');
-      if (colon != std::string::npos) return line.substr(std::min(colon + 2, line.size()));
-    }
-  }
-  return "unknown";
-}
-
 }  // namespace
 
 int main(int argc, char** argv) {
@@ -538,7 +460,7 @@ int main(int argc, char** argv) {
   if (seeds > 0) opt.seeds = seeds;
   std::printf("# tonebridge-sim-bench%s\n\nmachine: %u hardware threads, CPU %s\n\n",
               opt.quick ? " --quick (smoke run, rough figures)" : "",
-              std::thread::hardware_concurrency(), cpu_model().c_str());
+              std::thread::hardware_concurrency(), tb::bench::cpu_model().c_str());
   speed(opt);
   accuracy(opt);
   return 0;

