@@ -34,10 +34,11 @@ void add_type_a(UncertainComplex& out, const UncertainComplex& standard, cplx se
   }
   // The standards' own Type B terms (Rref, channel match) are shared with the reading and
   // largely cancel in the compensated value; they are not added a second time. Their
-  // interpolation between calibration frequencies (calibration_curve.hpp) is theirs
-  // alone and does not cancel: it is carried, named after the standard.
+  // interpolation between calibration frequencies (calibration_curve.hpp) and the hum
+  // on their tone are theirs alone and do not cancel: they are carried, named after the
+  // standard.
   for (const auto& t : standard.type_b) {
-    if (t.name.rfind("interpolation", 0) != 0) continue;
+    if (t.name.rfind("interpolation", 0) != 0 && t.name.rfind("mains_hum", 0) != 0) continue;
     out.type_b.push_back({name + "_" + t.name, t.sensitivity * sensitivity, t.u, t.dof});
   }
 }
@@ -69,15 +70,16 @@ OslPartials osl_partials(cplx zm, cplx zo, cplx zs, cplx zl, cplx zstd) {
 // every impedance the bridge reads (part, open, short, load) is Rref times a function of
 // the measured ratio, so an error of Rref scales all four alike, and the open/short/load
 // formula is homogeneous of degree 0 in them: the error cancels, the load's known value
-// sets the scale instead. Only that fixed offset of Rref from its nominal value is dropped;
-// Rref terms that can differ between the standards' captures and the part's ("rref_tempco*",
-// a drift with temperature) or that another budget owns ("rref_reactance*") stay.
+// sets the scale instead. The fixed properties of Rref are dropped: its offset from the
+// nominal value and its own reactance (Rref is complex throughout, and cancels the same
+// way). What can differ between the standards' captures and the part's stays: a drift
+// with temperature ("rref_tempco").
 void carry_reading(UncertainComplex& out, const UncertainComplex& m, cplx d_m,
                    bool drop_rref_tolerance) {
   out.type_a = map_cov(m.type_a, d_m);
   out.dof_a = m.dof_a;
   for (auto t : m.type_b) {
-    if (drop_rref_tolerance && t.name == "rref_tolerance") continue;
+    if (drop_rref_tolerance && (t.name == "rref_tolerance" || t.name == "rref_reactance")) continue;
     t.sensitivity *= d_m;
     out.type_b.push_back(t);
   }
@@ -95,7 +97,7 @@ UncertainComplex compensate_with_load(const UncertainComplex& m, const FixtureSt
   add_type_a(out, load.measured, p.d_l, "load");
   if (load.tolerance_rel > 0) {
     // Zdut is proportional to Zstd: a relative error x of the load moves Zdut by Zdut * x.
-    out.type_b.push_back({"load_tolerance", p.value, rectangular_u(load.tolerance_rel), 1e9});
+    out.type_b.push_back({"load_tolerance", p.value, rectangular_u(load.tolerance_rel), 1e9, true});
   }
   if (s.reconnect_half_width_ohm > 0) {
     // Three connections (part, short, load), each with its own contact offset. The stated

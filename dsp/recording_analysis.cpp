@@ -341,7 +341,7 @@ AnalysisResult analyze_recording(std::span<const double> a, std::span<const doub
       r.z.type_b.push_back(
           {"rref_tolerance",
            sensitivity(bc, r.ratio, [](BridgeConfig& c, double h) { c.rref_ohm *= 1 + h; }),
-           rectangular_u(config.rref_tolerance_rel)});
+           rectangular_u(config.rref_tolerance_rel), 1e9, true});
     }
     // Temperature: the same relative change of Rref as its tolerance, hence the same
     // sensitivity; half-width tempco * span.

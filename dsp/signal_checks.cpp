@@ -94,6 +94,31 @@ Hum measure_hum(std::span<const double> x, double sample_rate_hz, double mains_h
   return h;
 }
 
+double component_at(std::span<const double> x, double sample_rate_hz, double mains_hz,
+                    double freq_hz) {
+  if (!(sample_rate_hz > 0 && mains_hz > 0 && freq_hz > 0))
+    throw std::invalid_argument("sample rate and frequencies must be > 0");
+  const double period = sample_rate_hz / mains_hz;
+  const auto periods = static_cast<std::size_t>(std::floor(static_cast<double>(x.size()) / period));
+  if (periods == 0) return 0;
+  const auto m = std::min(
+      static_cast<std::size_t>(std::lround(static_cast<double>(periods) * period)), x.size());
+  const double w = 2 * std::numbers::pi * freq_hz / sample_rate_hz;
+  std::complex<double> acc;
+  for (std::size_t i = 0; i < m; ++i)
+    acc += x[i] * std::polar(1.0, -w * static_cast<double>(i));
+  return 2 * std::abs(acc) / static_cast<double>(m);
+}
+
+double hum_on_tone_rel(double freq_hz, double mains_hz, double hum_a_fs, double hum_b_fs,
+                       double level_a_fs, double level_b_fs, std::complex<double> ratio) {
+  if (!(mains_hz > 0) || !(level_a_fs > 0) || !(level_b_fs > 0)) return 0;
+  const double n = std::round(freq_hz / mains_hz);
+  if (n < 1 || std::abs(freq_hz - n * mains_hz) > 1e-6 * freq_hz) return 0;
+  const double dr_rel = hum_b_fs / level_b_fs + hum_a_fs / level_a_fs;
+  return dr_rel / std::abs(1.0 - ratio);
+}
+
 SignalStrength check_signal_strength(double level_b_fs, double snr_a_db, double snr_b_db,
                                      double min_level_fs, double min_snr_db) {
   SignalStrength s;

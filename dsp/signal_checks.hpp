@@ -5,6 +5,7 @@
 // into notices.
 #pragma once
 
+#include <complex>
 #include <span>
 
 namespace tb::dsp {
@@ -53,6 +54,24 @@ struct Hum {
 /// sample_rate_hz > 0, mains_hz > 0; otherwise std::invalid_argument.
 Hum measure_hum(std::span<const double> x, double sample_rate_hz, double mains_hz,
                 double limit_rms_fs = 1e-4, double max_harmonic_hz = 2000);
+
+/// Peak amplitude (full-scale units) of the component at exactly freq_hz in a capture taken
+/// with the output silent, by lock-in over the longest stretch holding whole periods of
+/// mains_hz (so that, when freq_hz is a mains harmonic, the other harmonics fall on nulls).
+/// 0 when the capture is shorter than one mains period. freq_hz, sample_rate_hz, mains_hz > 0.
+double component_at(std::span<const double> x, double sample_rate_hz, double mains_hz,
+                    double freq_hz);
+
+/// The budget terms for mains hum on the test tone itself: a tone on a harmonic of the mains
+/// (within 1e-6 of n * mains_hz) cannot be told from the hum there, which adds a fixed error
+/// that the block spread does not show. With hum amplitudes hum_a, hum_b at that frequency
+/// (peak, full-scale units, from a silent capture) and the reading's levels, the ratio
+/// r = V_B / V_A moves by up to dr / r = hum_b / level_b + hum_a / level_a in an unknown
+/// phase, and Z (either layout) by dZ / Z = (dr / r) / (1 - r). Returned as the relative
+/// size m of that error: two budget terms of u = m |Z| / sqrt 2 (real, imaginary) give it
+/// its variance. 0 when the tone is not on a harmonic.
+double hum_on_tone_rel(double freq_hz, double mains_hz, double hum_a_fs, double hum_b_fs,
+                       double level_a_fs, double level_b_fs, std::complex<double> ratio);
 
 struct SignalStrength {
   bool level_low = false;  ///< node B below min_level_fs

@@ -97,7 +97,7 @@ UncertainComplex impedance_from_uncertain_ratio(Layout layout, double rref_ohm,
     out.type_b.push_back({t.name, s * t.sensitivity, t.u, t.dof});
   // Z is proportional to Rref in both layouts: dZ per unit relative change of Rref is Z.
   if (rref_tolerance_rel > 0)
-    out.type_b.push_back({"rref_tolerance", z, rectangular_u(rref_tolerance_rel)});
+    out.type_b.push_back({"rref_tolerance", z, rectangular_u(rref_tolerance_rel), 1e9, true});
   return out;
 }
 

@@ -5,6 +5,7 @@
 #include <algorithm>
 #include <cmath>
 #include <limits>
+#include <numbers>
 #include <stdexcept>
 
 namespace tb::dsp {
@@ -72,6 +73,30 @@ double coverage_factor(double nu_eff, double p) {
   return student_t_two_sided(p, nu > kNormalNu ? kInf : nu);
 }
 
+double coverage_factor_uniform_normal(double a, double sigma, double p) {
+  if (!(a >= 0) || !(sigma >= 0) || !(p > 0 && p < 1))
+    throw std::domain_error("coverage_factor_uniform_normal: a, sigma >= 0 and 0 < p < 1");
+  const double u_c = std::sqrt(a * a / 3 + sigma * sigma);
+  if (u_c == 0) return 2.0;
+  if (sigma <= 1e-12 * a) return p * std::sqrt(3.0);  // the uniform alone
+  auto phi = [](double x) { return std::exp(-0.5 * x * x) / std::sqrt(2 * std::numbers::pi); };
+  auto cdf = [](double x) { return 0.5 * std::erfc(-x / std::numbers::sqrt2); };
+  // P(|Y| <= t) with Y = U(-a, a) + N(0, sigma): the uniform's average of the normal's
+  // interval probability, integrated in closed form with G(w) = w Phi(w/s) + s phi(w/s),
+  // the antiderivative of Phi(w / s).
+  auto g = [&](double w) { return w * cdf(w / sigma) + sigma * phi(w / sigma); };
+  auto inside = [&](double t) {
+    if (a <= 1e-12 * sigma) return std::erf(t / (sigma * std::numbers::sqrt2));
+    return (g(t + a) - g(t - a) - g(a - t) + g(-t - a)) / (2 * a);
+  };
+  double lo = 0, hi = a + 10 * sigma;
+  for (int i = 0; i < 200 && hi - lo > 1e-12 * hi; ++i) {
+    const double mid = 0.5 * (lo + hi);
+    (inside(mid) < p ? lo : hi) = mid;
+  }
+  return 0.5 * (lo + hi) / u_c;
+}
+
 ScalarUncertainty propagate(const UncertainComplex& z, double y, double dy_dre, double dy_dim) {
   ScalarUncertainty out;
   out.value = y;
@@ -90,10 +115,13 @@ ScalarUncertainty propagate(const UncertainComplex& z, double y, double dy_dre, 
   u_i.push_back(out.u_a);
   nu_i.push_back(z.dof_a);
   double ub2 = 0.0;
+  double largest = out.u_a, largest_rect = 0.0;
   for (const TypeBTerm& term : z.type_b) {
     const double ci =
         (dy_dre * term.sensitivity.real() + dy_dim * term.sensitivity.imag()) * term.u;
     ub2 += ci * ci;
+    largest = std::max(largest, std::abs(ci));
+    if (term.rectangular) largest_rect = std::max(largest_rect, std::abs(ci));
     u_i.push_back(std::abs(ci));
     nu_i.push_back(term.dof);
   }
@@ -108,6 +136,11 @@ ScalarUncertainty propagate(const UncertainComplex& z, double y, double dy_dre, 
   }
   out.nu_eff = welch_satterthwaite(u_i, nu_i);
   out.k = coverage_factor(out.nu_eff);
+  if (largest_rect > 0 && largest_rect >= largest) {
+    const double rest = std::sqrt(std::max(out.u_c * out.u_c - largest_rect * largest_rect, 0.0));
+    const double k_conv = coverage_factor_uniform_normal(std::sqrt(3.0) * largest_rect, rest);
+    out.k = std::min(out.k, k_conv * out.k / coverage_factor(kInf));
+  }
   out.expanded = out.k * out.u_c;
   return out;
 }

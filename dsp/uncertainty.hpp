@@ -27,6 +27,9 @@ struct TypeBTerm {
   std::complex<double> sensitivity;  ///< dZ/dx, ohm per unit of x
   double u = 0;                      ///< standard uncertainty of x
   double dof = 1e9;                  ///< degrees of freedom (large = well known)
+  /// The input is uniform within +-sqrt(3) u (a tolerance, a bound): when it dominates
+  /// a propagated quantity the coverage factor is that of the convolution (see propagate).
+  bool rectangular = false;
 };
 
 struct UncertainComplex {
@@ -53,7 +56,17 @@ struct ScalarUncertainty {
   double expanded = 0;  ///< U = k * u_c
 };
 
+/// Coverage factor k (relative to u_c = sqrt(a^2/3 + sigma^2)) for the sum of a uniform
+/// input of half-width a >= 0 and a normal one of standard deviation sigma >= 0, for
+/// coverage probability p: the convolution's own quantile (JCGM 100:2008 G.2.3 and G.6.5:
+/// a dominant rectangular term makes the output distribution flatter than normal).
+/// Example: sigma = 0 gives p sqrt 3 (1.653 for p = 95.45 %); a = 0 gives 2.000.
+double coverage_factor_uniform_normal(double a, double sigma, double p = 0.9545);
+
 /// Propagates to y = f(Re Z, Im Z); gradient = (dy/dRe, dy/dIm) at the value.
+/// k: Student's t for the Welch-Satterthwaite nu_eff; when the largest contribution is a
+/// rectangular term, the uniform-normal convolution's k (scaled by the t inflation t/z, so
+/// few degrees of freedom still widen it), never above Student's.
 ScalarUncertainty propagate(const UncertainComplex& z, double y, double dy_dre, double dy_dim);
 
 /// Same, with the gradient taken numerically by central differences of f

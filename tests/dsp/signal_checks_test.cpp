@@ -97,3 +97,19 @@ TEST_CASE("weak signals are told apart from healthy ones", "[signal_checks]") {
   CHECK(check_signal_strength(0.05, 80, 30).snr_low);
   CHECK(check_signal_strength(0.05, 35, 80).snr_low);
 }
+
+TEST_CASE("hum on the test tone is bounded from the silent capture", "[signal_checks]") {
+  // 100 Hz is the 2nd harmonic of 50 Hz mains: hum of 1e-4 FS there on node B, read
+  // against a node B level of 0.01, moves the ratio by 1 %; with r = 0.5 (Z = Rref in
+  // part-low) Z moves by 1 % / |1 - r| = 2 %.
+  const double fs = 48000;
+  std::vector<double> silent(4800);
+  for (std::size_t i = 0; i < silent.size(); ++i)
+    silent[i] = 1e-4 * std::sin(2 * std::numbers::pi * 100 * static_cast<double>(i) / fs + 0.3) +
+                3e-4 * std::sin(2 * std::numbers::pi * 50 * static_cast<double>(i) / fs);
+  const double hum = component_at(silent, fs, 50, 100);
+  CHECK(hum == Approx(1e-4).epsilon(1e-6));  // the 50 Hz fundamental falls on a null
+  CHECK(hum_on_tone_rel(100, 50, 0, hum, 0.02, 0.01, 0.5) == Approx(0.02).epsilon(1e-5));
+  // 120 Hz is no harmonic of 50 Hz: the lock-in rejects the hum, no term.
+  CHECK(hum_on_tone_rel(120, 50, 1e-4, 1e-4, 0.02, 0.01, 0.5) == 0);
+}

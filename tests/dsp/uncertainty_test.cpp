@@ -5,6 +5,7 @@
 
 #include <catch2/catch.hpp>
 
+#include <algorithm>
 #include <array>
 #include <cmath>
 #include <complex>
@@ -17,9 +18,11 @@
 
 using tb::dsp::Cov2;
 using tb::dsp::coverage_factor;
+using tb::dsp::coverage_factor_uniform_normal;
 using tb::dsp::derive;
 using tb::dsp::mean_with_type_a;
 using tb::dsp::propagate;
+using tb::dsp::rectangular_u;
 using tb::dsp::ScalarUncertainty;
 using tb::dsp::TypeBTerm;
 using tb::dsp::UncertainComplex;
@@ -395,4 +398,33 @@ TEST_CASE("propagate: Welch-Satterthwaite coverage with a Type B term", "[uncert
   CHECK(r.with_propagated_k >= 0.945);
   CHECK(r.with_propagated_k <= 0.965);
   CHECK(r.with_dof_a_only > 0.97);
+}
+
+TEST_CASE("coverage factor of a uniform plus a normal input", "[uncertainty]") {
+  // Limits (JCGM 100:2008 G.2.3): a uniform alone covers 95.45 % at 0.9545 of its
+  // half-width, i.e. k = 0.9545 sqrt 3 = 1.653; a normal alone at k = 2.000.
+  CHECK(coverage_factor_uniform_normal(1.0, 0.0) == Approx(0.9545 * std::sqrt(3.0)));
+  CHECK(coverage_factor_uniform_normal(0.0, 1.0) == Approx(2.0).epsilon(1e-3));
+  // Between them: checked against a Monte Carlo of the sum (JCGM 101:2008, 1e6 draws).
+  std::mt19937_64 rng(7);
+  std::uniform_real_distribution<double> uni(-1.0, 1.0);
+  std::normal_distribution<double> norm(0.0, 0.3);
+  std::vector<double> y(1000000);
+  for (auto& v : y)
+    v = std::abs(uni(rng) + norm(rng));
+  std::nth_element(y.begin(), y.begin() + 954500, y.end());
+  const double u_c = std::sqrt(1.0 / 3 + 0.09);
+  CHECK(coverage_factor_uniform_normal(1.0, 0.3) == Approx(y[954500] / u_c).epsilon(3e-3));
+}
+
+TEST_CASE("a dominant rectangular term lowers k, a small one does not", "[uncertainty]") {
+  UncertainComplex z;
+  z.value = {100, 0};
+  z.type_b.push_back({"tolerance", {100, 0}, rectangular_u(1e-3), 1e9, true});
+  z.type_b.push_back({"noise", {1, 0}, 1e-3, 1e9});
+  const auto dominated = propagate(z, [](std::complex<double> v) { return v.real(); });
+  CHECK(dominated.k == Approx(1.653).margin(0.01));
+  z.type_b[1].u = 1.0;  // now the normal term dominates
+  const auto normal = propagate(z, [](std::complex<double> v) { return v.real(); });
+  CHECK(normal.k == Approx(2.0).margin(0.01));
 }

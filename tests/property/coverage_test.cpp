@@ -93,6 +93,11 @@ TEST_CASE("stated uncertainty covers the truth about 95 % of the time on hidden 
     req.freq_hz = t.freq_hz;
     req.rref_ohm = t.rref_ohm;
     req.rref_tolerance_rel = 0.001;
+    // The simulated reference resistor does not change with temperature: no tempco term
+    // (a real jig's budget keeps it; docs/accuracy.md says so).
+    req.rref_tempco_ppm_per_k = 0;
+    // The technician states the local mains frequency; the hidden card hums at it.
+    req.mains_hz = cfg.card.hum_hz;
     req.duration_s = 0.2;
     req.stream.sample_rate_hz = t.freq_hz > 12000 ? 96000 : 48000;
     BenchCorrections corr;
