@@ -105,3 +105,31 @@ TEST_CASE("a card turned up since its open and short steps reads as drifted",
   CHECK(turned_up[0].id == "calibration.drifted");
   CHECK(turned_up[0].message.find("1.0") != std::string::npos);  // "1.00 dB"
 }
+
+TEST_CASE("a calibration of another device or sample rate is named and not applied",
+          "[calibration_data]") {
+  Store store(test::make_temp_dir("calother") + "/t.db");
+  auto other_rate = record("channel_match", {{{"freq_hz", 1000}, {"h_re", 1.02}, {"h_im", 0}}});
+  other_rate.sample_rate_hz = 96000;
+  store.add_calibration(other_rate);
+  auto c = find_corrections(store, kKey, 1000, {.now_iso = utc_now_iso()});
+  CHECK_FALSE(c.match);
+  REQUIRE(has(c, "calibration.no_channel_match"));
+  CHECK(c.missing.at(0).message.find("96 kHz") != std::string::npos);
+  CHECK(c.missing.at(0).message.find("not applied") != std::string::npos);
+
+  auto other_device = record("channel_match", {{{"freq_hz", 1000}, {"h_re", 1.03}, {"h_im", 0}}});
+  other_device.device = "usb-interface-2";
+  store.add_calibration(other_device);
+  c = find_corrections(store, kKey, 1000, {.now_iso = utc_now_iso()});
+  CHECK_FALSE(c.match);
+  CHECK(c.missing.at(0).message.find("usb-interface-2") != std::string::npos);
+
+  // Its own set-up's calibration is applied, whatever else is stored.
+  store.add_calibration(
+      record("channel_match", {{{"freq_hz", 1000}, {"h_re", 1.01}, {"h_im", 0}}}));
+  c = find_corrections(store, kKey, 1000, {.now_iso = utc_now_iso()});
+  REQUIRE(c.match);
+  CHECK(c.match->h.real() == 1.01);
+  CHECK_FALSE(has(c, "calibration.no_channel_match"));
+}
