@@ -173,7 +173,8 @@ std::optional<CalibrationRecord> other_setup(const std::vector<CalibrationRecord
 Corrections find_corrections(const Store& store, const CalibrationKey& key, double freq_hz,
                              const CorrectionPolicy& policy) {
   Corrections out;
-  const auto recent = store.calibrations(200);
+  // Read only when a correction is missing (not on every reading of a calibrated jig).
+  std::optional<std::vector<CalibrationRecord>> recent;
   auto latest = [&](const char* kind) {
     return store.latest_calibration(kind, key.device, key.sample_rate_hz, key.layout, key.rref_ohm);
   };
@@ -190,7 +191,8 @@ Corrections find_corrections(const Store& store, const CalibrationKey& key, doub
     }
   };
   auto note_missing = [&](const char* kind, ReadingNotice notice) {
-    if (const auto other = other_setup(recent, kind, key)) {
+    if (!recent) recent = store.calibrations(200);
+    if (const auto other = other_setup(*recent, kind, key)) {
       notice.message += "; the newest " + std::string(kind) + " calibration (" + other->taken_at +
                         ") was taken for " + describe_key(*other) + " and is not applied here";
     }
