@@ -372,31 +372,23 @@ AnalysisResult analyze_recording(std::span<const double> a, std::span<const doub
                        [](BridgeConfig& c, double h) { *c.input_impedance_ohm *= 1 + h; }),
            config.input_impedance_u_rel});
     }
-    if (config.channel_gain_u_rel > 0) {
-      r.z.type_b.push_back(
-          {"channel_match_gain",
-           sensitivity(bc, r.ratio, [](BridgeConfig& c, double h) { c.channel_match *= 1 + h; }),
-           config.channel_gain_u_rel});
+    // The channel match's own scatter and its interpolation between calibration
+    // frequencies move Z through the same two sensitivities (gain, phase of H).
+    if (config.channel_gain_u_rel > 0 || config.channel_interp_gain_u_rel > 0) {
+      const auto s_gain =
+          sensitivity(bc, r.ratio, [](BridgeConfig& c, double h) { c.channel_match *= 1 + h; });
+      if (config.channel_gain_u_rel > 0)
+        r.z.type_b.push_back({"channel_match_gain", s_gain, config.channel_gain_u_rel});
+      if (config.channel_interp_gain_u_rel > 0)
+        r.z.type_b.push_back({"interpolation_gain", s_gain, config.channel_interp_gain_u_rel});
     }
-    if (config.channel_phase_u_rad > 0) {
-      r.z.type_b.push_back(
-          {"channel_match_phase",
-           sensitivity(bc, r.ratio,
-                       [](BridgeConfig& c, double h) { c.channel_match *= std::polar(1.0, h); }),
-           config.channel_phase_u_rad});
-    }
-    if (config.channel_interp_gain_u_rel > 0) {
-      r.z.type_b.push_back(
-          {"interpolation_gain",
-           sensitivity(bc, r.ratio, [](BridgeConfig& c, double h) { c.channel_match *= 1 + h; }),
-           config.channel_interp_gain_u_rel});
-    }
-    if (config.channel_interp_phase_u_rad > 0) {
-      r.z.type_b.push_back(
-          {"interpolation_phase",
-           sensitivity(bc, r.ratio,
-                       [](BridgeConfig& c, double h) { c.channel_match *= std::polar(1.0, h); }),
-           config.channel_interp_phase_u_rad});
+    if (config.channel_phase_u_rad > 0 || config.channel_interp_phase_u_rad > 0) {
+      const auto s_phase = sensitivity(
+          bc, r.ratio, [](BridgeConfig& c, double h) { c.channel_match *= std::polar(1.0, h); });
+      if (config.channel_phase_u_rad > 0)
+        r.z.type_b.push_back({"channel_match_phase", s_phase, config.channel_phase_u_rad});
+      if (config.channel_interp_phase_u_rad > 0)
+        r.z.type_b.push_back({"interpolation_phase", s_phase, config.channel_interp_phase_u_rad});
     }
 
     update_derived(r, config.force_kind);
