@@ -1,9 +1,6 @@
 #include "server/calibrate_command.hpp"
 
-#include <httplib.h>
-
 #include <array>
-#include <cstdlib>
 #include <iostream>
 #include <sstream>
 
@@ -12,6 +9,7 @@
 #include "server/cli_args.hpp"
 #include "server/error.hpp"
 #include "server/error_report.hpp"
+#include "server/service_client.hpp"
 
 namespace tb {
 
@@ -31,42 +29,6 @@ const std::array<cli::OptionSpec, 8> kOptions{{
 }};
 
 constexpr const char* kUsage = "tonebridge calibrate [--service URL] [options]";
-
-class ServiceClient {
- public:
-  ServiceClient(const std::string& url, std::string token)
-      : client_(url), url_(url), token_(std::move(token)) {
-    client_.set_read_timeout(330, 0);  // a step waits up to 300 s for the engine
-    client_.set_connection_timeout(5, 0);
-  }
-
-  nlohmann::json call(const std::string& method, const std::string& path,
-                      const nlohmann::json& body = nullptr) {
-    httplib::Headers headers;
-    if (!token_.empty()) headers.emplace("Authorization", "Bearer " + token_);
-    const auto res = method == "GET" ? client_.Get(path, headers)
-                     : method == "DELETE"
-                         ? client_.Delete(path, headers)
-                         : client_.Post(path, headers, body.dump(), "application/json");
-    if (!res) {
-      throw Error("service.unreachable",
-                  "no answer from " + url_ + " (" + httplib::to_string(res.error()) + ")",
-                  "start it with `tonebridged` (or `./tbdev demo`), or give --service");
-    }
-    nlohmann::json j = nlohmann::json::parse(res->body, nullptr, false);
-    if (res->status >= 400) {
-      const auto e =
-          j.is_object() ? j.value("error", nlohmann::json::object()) : nlohmann::json::object();
-      throw Error(e.value("id", "service.error"),
-                  e.value("message", "HTTP " + std::to_string(res->status)), e.value("hint", ""));
-    }
-    return j;
-  }
-
- private:
-  httplib::Client client_;
-  std::string url_, token_;
-};
 
 bool wait_for_enter(std::istream& in, std::ostream& out, bool yes) {
   if (yes) return true;
@@ -121,9 +83,9 @@ int run_calibrate(const std::vector<std::string>& argv, std::istream& in, std::o
       out << cli::format_help(kUsage, kOptions);
       return 0;
     }
-    const char* env_token = std::getenv("TONEBRIDGE_TOKEN");
-    ServiceClient svc(args.get("service").value_or("http://127.0.0.1:7583"),
-                      args.get("token").value_or(env_token ? env_token : ""));
+    // A step waits up to 300 s for the engine.
+    ServiceClient svc(args.get("service").value_or(default_service_url()),
+                      args.get("token").value_or(token_from_environment()), 330);
     const auto guide = svc.call("GET", "/api/v1/calibrations/guide");
     const auto& setup = guide.at("setup");
     out << "Calibrating " << setup.value("device", "") << " at "
