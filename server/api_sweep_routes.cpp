@@ -32,11 +32,11 @@ SweepRecord need_sweep(const Store& store, std::int64_t id) {
 void add_sweep_routes(std::vector<Route>& r) {
   r.push_back(
       {"POST", "/api/v1/sweeps", Access::change,
-       "start a stepped-sine sweep; points are saved as they are measured",
+       "start a stepped-sine sweep; points are saved as they are measured, refined where sharp",
        [](ApiContext& ctx, const httplib::Request& req) {
-         const auto b =
-             api::parse_body(req.body, {"start_hz", "stop_hz", "points_per_decade", "level_fs",
-                                        "duration_s", "label", "part_id", "wait"});
+         const auto b = api::parse_body(
+             req.body, {"start_hz", "stop_hz", "points_per_decade", "level_fs", "duration_s",
+                        "refine", "target_u_pct", "label", "part_id", "wait"});
          SweepTask t;
          t.start_hz = api::opt_number(b, "start_hz").value_or(t.start_hz);
          t.stop_hz = api::opt_number(b, "stop_hz").value_or(t.stop_hz);
@@ -49,6 +49,8 @@ void add_sweep_routes(std::vector<Route>& r) {
          }
          t.level_fs = api::opt_number(b, "level_fs");
          t.duration_s = api::opt_number(b, "duration_s");
+         t.refine = api::opt_bool(b, "refine").value_or(true);
+         t.target_u_pct = api::opt_number(b, "target_u_pct");
          t.label = api::opt_text(b, "label").value_or("");
          if (t.label.size() > 200) {
            throw Error("request.out_of_range", "label is longer than 200 characters", "shorten it");

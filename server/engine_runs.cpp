@@ -2,10 +2,13 @@
 // step and a part change do with the device. Runs on the engine's thread only.
 #include <chrono>
 #include <cmath>
+#include <complex>
+#include <map>
 #include <numbers>
 #include <thread>
 
 #include "dsp/part_spec.hpp"
+#include "dsp/sweep_refine.hpp"
 #include "server/bench_procedure.hpp"
 #include "server/calibration_data.hpp"
 #include "server/capture.hpp"
@@ -194,8 +197,8 @@ nlohmann::json Engine::run_watch(const WatchTask& t, const Settings& s, TaskInfo
 
 nlohmann::json Engine::run_sweep(const SweepTask& t, const Settings& s, TaskInfo& info) {
   rewire_bench(s);
-  const auto freqs = t.frequencies();
-  info.total = static_cast<int>(freqs.size());
+  const auto planned = t.frequencies();
+  info.total = static_cast<int>(planned.size());
   EngineEvent begin{"sweep.begin",
                     {{"task_id", info.id},
                      {"params", to_json(TaskRequest{t})},
@@ -207,49 +210,112 @@ nlohmann::json Engine::run_sweep(const SweepTask& t, const Settings& s, TaskInfo
   info.result = {{"sweep_id", sweep_id}};
   update_task(info);
 
-  std::string status = "complete";
-  nlohmann::json end_error;
-  for (std::size_t i = 0; i < freqs.size(); ++i) {
-    auto req = request_from(s, freqs[i], t.level_fs, t.duration_s);
+  // What was measured so far, by frequency, for settling and refinement.
+  std::map<double, std::complex<double>> measured;
+  const bool part_high = *dsp::parse_layout(s.text("layout")) == dsp::Layout::part_high;
+  auto settle_for = [&](double f, const MeasureRequest& req) {
+    dsp::SettleInputs in{.freq_hz = f};
+    // The nearest measured neighbours below (a sweep runs upwards; refinement fills gaps).
+    auto above = measured.lower_bound(f);
+    if (above != measured.begin()) {
+      auto below = std::prev(above);
+      in.circuit_tau_s = dsp::circuit_time_constant_s(below->first, below->second, req.rref_ohm);
+      if (below != measured.begin()) {
+        auto lower = std::prev(below);
+        in.group_delay_s = dsp::divider_group_delay_s(lower->first, lower->second, below->first,
+                                                      below->second, req.rref_ohm, part_high);
+      }
+    }
+    return dsp::settle_time_s(in);
+  };
+
+  int index = 0;
+  auto take_point = [&](double f) {
+    auto req = request_from(s, f, t.level_fs, t.duration_s);
     req.cancel = &cancel_current_;
-    EngineEvent point{"sweep.point", {{"sweep_id", sweep_id}, {"index", i}, {"freq_hz", freqs[i]}}};
+    req.settle_s = settle_for(f, req);
+    EngineEvent point{"sweep.point", {{"sweep_id", sweep_id}, {"index", index}, {"freq_hz", f}}};
     try {
       const Corrections corr = corrections_for(store_, device_id(), req, s, kReconnectHalfWidthOhm);
       auto result = measure_once(*device_, req, corr.match, corr.fixture);
-      point.data["reading"] = reading_json(result, req, corr, s);
+      // Integration from a target: a noisy point is taken again, longer.
+      if (t.target_u_pct && result.reading.ratio_u_rel > *t.target_u_pct / 100) {
+        req.duration_s = dsp::duration_for_target_s(req.duration_s, result.reading.ratio_u_rel,
+                                                    *t.target_u_pct / 100, 0.1, 30);
+        result = measure_once(*device_, req, corr.match, corr.fixture);
+      }
+      auto j = reading_json(result, req, corr, s);
+      j["settle_s"] = req.settle_s;
+      point.data["reading"] = j;
+      measured[result.reading.freq_hz] = result.reading.z.value;
     } catch (...) {
       const ErrorInfo e = describe_current_error();
       const bool fatal = e.id == "task.cancelled" || e.id == "part.charged" ||
                          e.id.rfind("device.", 0) == 0 || e.id.rfind("capture.", 0) == 0;
-      if (fatal) {
-        bool stopping;
-        {
-          std::lock_guard lock(m_);
-          stopping = stopping_;
-        }
-        if (e.id == "task.cancelled") {
-          status = stopping ? "interrupted" : "cancelled";
-          end_error = stopping ? nlohmann::json{{"id", "sweep.interrupted"},
-                                                {"message",
-                                                 "the service was stopped during "
-                                                 "the sweep"},
-                                                {"hint", "start the sweep again"}}
-                               : nlohmann::json{{"id", "sweep.cancelled"},
-                                                {"message", "the sweep was cancelled"},
-                                                {"hint", ""}};
-        } else {
-          status = "failed";
-          end_error = error_json(e);
-        }
-        break;
-      }
+      if (fatal) throw;
       // This frequency alone could not be read (e.g. the part shorts the bridge there):
       // keep the point with its reason and go on.
       point.data["error"] = error_json(e);
     }
     publish(point);
-    info.done = static_cast<int>(i) + 1;
+    ++index;
+    info.done = index;
     update_task(info);
+  };
+
+  std::string status = "complete";
+  nlohmann::json end_error;
+  try {
+    for (double f : planned)
+      take_point(f);
+    // Sharp features (a resonance between two points) get points of their own.
+    int added = 0;
+    while (t.refine) {
+      std::vector<double> f;
+      std::vector<std::complex<double>> z;
+      for (const auto& [freq, value] : measured) {
+        f.push_back(freq);
+        z.push_back(value);
+      }
+      // A midpoint that lands on a bin already measured (low tones snap to their block's
+      // bins) adds nothing: only new bins are taken.
+      std::vector<double> todo;
+      for (double x : dsp::refine_frequencies(f, z, {}, added)) {
+        const double played = played_frequency_hz(request_from(s, x, t.level_fs, t.duration_s));
+        auto near = measured.lower_bound(played * 0.995);
+        const bool known = near != measured.end() && near->first <= played * 1.005;
+        const bool twice = !todo.empty() && std::abs(todo.back() / played - 1) < 0.005;
+        if (!known && !twice) todo.push_back(played);
+      }
+      if (todo.empty()) break;
+      added += static_cast<int>(todo.size());
+      info.total += static_cast<int>(todo.size());
+      EngineEvent replanned{"sweep.replanned",
+                            {{"sweep_id", sweep_id}, {"points_planned", info.total}}};
+      publish(replanned);
+      update_task(info);
+      for (double x : todo)
+        take_point(x);
+    }
+  } catch (...) {
+    const ErrorInfo e = describe_current_error();
+    bool stopping;
+    {
+      std::lock_guard lock(m_);
+      stopping = stopping_;
+    }
+    if (e.id == "task.cancelled") {
+      status = stopping ? "interrupted" : "cancelled";
+      end_error = stopping ? nlohmann::json{{"id", "sweep.interrupted"},
+                                            {"message", "the service was stopped during the sweep"},
+                                            {"hint", "start the sweep again"}}
+                           : nlohmann::json{{"id", "sweep.cancelled"},
+                                            {"message", "the sweep was cancelled"},
+                                            {"hint", ""}};
+    } else {
+      status = "failed";
+      end_error = error_json(e);
+    }
   }
   EngineEvent end{"sweep.end",
                   {{"sweep_id", sweep_id},

@@ -100,6 +100,8 @@ void validate(const TaskRequest& t, const Settings& s) {
     in_range("points", sw->points(), 2, 400, "use fewer points per decade or a narrower range");
     lim.level(sw->level_fs);
     lim.duration(sw->duration_s);
+    if (sw->target_u_pct)
+      in_range("target_u_pct", *sw->target_u_pct, 0.001, 10, "e.g. 0.05 for 0.05 %");
   }
   if (const auto* c = std::get_if<CalibrationTask>(&t)) {
     if (c->kind != "channel_match" && c->kind != "open" && c->kind != "short" &&
@@ -181,6 +183,8 @@ nlohmann::json to_json(const TaskRequest& t) {
          {"label", sw->label}};
     put(j, "level_fs", sw->level_fs);
     put(j, "duration_s", sw->duration_s);
+    j["refine"] = sw->refine;
+    put(j, "target_u_pct", sw->target_u_pct);
     if (sw->part_id) j["part_id"] = *sw->part_id;
   }
   if (const auto* c = std::get_if<CalibrationTask>(&t)) {

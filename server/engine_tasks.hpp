@@ -42,6 +42,10 @@ struct SweepTask {
   double start_hz = 100, stop_hz = 10000;
   int points_per_decade = 10;
   std::optional<double> level_fs, duration_s;
+  /// Add points where the curve is sharp (dsp/sweep_refine.hpp), at most 30.
+  bool refine = true;
+  /// Take a point again, longer, when its Type A (standard, relative, in %) is above this.
+  std::optional<double> target_u_pct;
   std::string label;
   std::optional<std::int64_t> part_id;
   int points() const;  ///< number of frequencies in the plan

@@ -1,5 +1,7 @@
 #include "server/export_format.hpp"
 
+#include <algorithm>
+
 #include <sstream>
 
 namespace tb {
@@ -55,7 +57,12 @@ const std::vector<std::string>& export_quantities() {
   return q;
 }
 
-nlohmann::json sweep_columns(const std::vector<SweepPoint>& points) {
+nlohmann::json sweep_columns(const std::vector<SweepPoint>& stored) {
+  // Points added by refinement come after the planned ones; plots and files want them in
+  // frequency order.
+  std::vector<SweepPoint> points = stored;
+  std::stable_sort(points.begin(), points.end(),
+                   [](const SweepPoint& a, const SweepPoint& b) { return a.freq_hz < b.freq_hz; });
   nlohmann::json cols = nlohmann::json::object();
   cols["index"] = nlohmann::json::array();
   cols["freq_hz"] = nlohmann::json::array();

@@ -42,6 +42,10 @@ dsp::TonePlan plan_for(const MeasureRequest& r) {
     throw Error("measure.bad_duration", "duration " + std::to_string(r.duration_s) + " s",
                 "use 0.1 to 60 s");
   }
+  if (!(r.settle_s >= 0.01 && r.settle_s <= 5)) {
+    throw Error("measure.bad_duration", "settling time " + std::to_string(r.settle_s) + " s",
+                "use 0.01 to 5 s");
+  }
   const std::size_t block = block_for(r.freq_hz, fs);
   const auto blocks = std::max<std::size_t>(
       4, static_cast<std::size_t>(std::lround(r.duration_s * fs / static_cast<double>(block))));
@@ -49,7 +53,7 @@ dsp::TonePlan plan_for(const MeasureRequest& r) {
                           .block_len = block,
                           .requested_hz = {r.freq_hz},
                           .fade_in_s = 0.02,
-                          .settle_s = 0.1,
+                          .settle_s = r.settle_s,
                           .blocks = blocks});
 }
 
@@ -284,6 +288,10 @@ RawCapture capture_uncorrected(AudioDevice& device, const MeasureRequest& reques
   out.reading = played.reading;
   out.level_fs = played.level_fs;
   return out;
+}
+
+double played_frequency_hz(const MeasureRequest& request) {
+  return plan_for(request).tones.at(0).achieved_hz;
 }
 
 MeasureResult measure_once(AudioDevice& device, const MeasureRequest& request,

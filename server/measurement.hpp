@@ -37,6 +37,9 @@ struct MeasureRequest {
   double level_cap_fs = 1.0;  ///< highest output level an automatic level may choose, (0, 1]
   dsp::PartClass part_class = dsp::PartClass::general;
   double duration_s = 1.0;  ///< analysed tone after fade-in and settling
+  /// Settling time played and discarded before analysis, 0.01 .. 5 s; a sweep sets it from
+  /// the jig's response time (dsp/sweep_refine.hpp).
+  double settle_s = 0.1;
   StreamSpec stream;
   dsp::Layout layout = dsp::Layout::part_low;
   double rref_ohm = 1000;
@@ -113,6 +116,11 @@ double pre_listen(AudioDevice& device, const StreamSpec& spec, double seconds,
 /// Channel match at one frequency from a capture with both inputs on node A (listens for
 /// a charged part first, as measure_once does).
 ChannelMatch measure_channel_match(AudioDevice& device, const MeasureRequest& request);
+
+/// The frequency a reading of this request really plays: the requested one moved to the
+/// nearest bin of its analysis block (10 Hz steps from 40 Hz up at 48 kHz, finer below).
+/// Throws as measure_once does for a bad frequency, level or duration.
+double played_frequency_hz(const MeasureRequest& request);
 
 /// One reading (played again at a third of the level, twice at most, if the capture clips),
 /// with the channel match divided out and, when given, open/short(/load) fixture

@@ -321,6 +321,14 @@ void Store::add_sweep_point(std::int64_t sweep_id, const SweepPoint& point) {
   }
 }
 
+void Store::set_points_planned(std::int64_t sweep_id, int points_planned) {
+  Lock lock(mutex_);
+  if (change(db_, "UPDATE sweeps SET points_planned = ?2 WHERE id = ?1", "replanning a sweep",
+             sweep_id, points_planned) == 0) {
+    throw not_found("sweep", sweep_id);
+  }
+}
+
 void Store::end_sweep(std::int64_t sweep_id, SweepStatus status, const nlohmann::json& end) {
   if (status == SweepStatus::running) {
     throw std::logic_error("Store::end_sweep: a sweep cannot end as running");

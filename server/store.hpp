@@ -134,6 +134,9 @@ class Store {
   /// Saves one point (one transaction); a second point with the same index replaces it.
   /// Throws store.not_found for an unknown sweep.
   void add_sweep_point(std::int64_t sweep_id, const SweepPoint& point);
+  /// A sweep that adds points as it goes (refinement) raises its plan. Throws
+  /// store.not_found for an unknown sweep.
+  void set_points_planned(std::int64_t sweep_id, int points_planned);
   /// Throws tb::Error store.not_found for an unknown sweep; std::logic_error for
   /// SweepStatus::running.
   void end_sweep(std::int64_t sweep_id, SweepStatus status, const nlohmann::json& end = nullptr);

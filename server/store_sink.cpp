@@ -32,6 +32,9 @@ void StoreSink::deliver(EngineEvent& e) {
     p.freq_hz = d.at("freq_hz").get<double>();
     p.body = d;
     store_.add_sweep_point(d.at("sweep_id").get<std::int64_t>(), p);
+  } else if (e.type == "sweep.replanned") {
+    store_.set_points_planned(d.at("sweep_id").get<std::int64_t>(),
+                              d.at("points_planned").get<int>());
   } else if (e.type == "sweep.end") {
     store_.end_sweep(d.at("sweep_id").get<std::int64_t>(),
                      sweep_status(d.value("status", "failed")), d.at("error"));

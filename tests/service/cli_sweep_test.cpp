@@ -74,3 +74,40 @@ TEST_CASE("tonebridge sweep refuses a bad request before measuring", "[service]"
   CHECK(nobody.exit_code == 1);
   CHECK(nobody.err.find("service.unreachable") != std::string::npos);
 }
+
+TEST_CASE("a stepped sweep adds points around a driver's resonance", "[service]") {
+  ServiceProcess svc({"--rref-ohm", "10"});
+  // The worked example of references.md (Thiele 1961 / Small 1972): fs 70.7 Hz, Qms 4.27.
+  REQUIRE(svc.request("PUT", "/api/v1/bench/part",
+                      R"({"part": "driver re 6 le 0.5m fs 70.7 qms 4.27 qes 0.34"})")
+              .status == 202);
+  const auto r = svc.post("/api/v1/sweeps", {{"start_hz", 20},
+                                             {"stop_hz", 500},
+                                             {"points_per_decade", 5},
+                                             {"duration_s", 0.2},
+                                             {"wait", true}});
+  INFO(r.body);
+  REQUIRE(r.status == 201);
+  const auto sweep = r.json();
+  const int planned = 9;  // 20 Hz to 500 Hz at 5 per decade: ceil(1.398 * 5) + 1
+  CHECK(sweep.at("points_planned").get<int>() > planned);
+  CHECK(sweep.at("points_saved") == sweep.at("points_planned"));
+  const auto cols =
+      svc.get("/api/v1/sweeps/" + std::to_string(sweep.at("id").get<int>())).json().at("columns");
+  bool added_near_fs = false;
+  double previous = 0;
+  for (std::size_t i = 0; i < cols.at("freq_hz").size(); ++i) {
+    const double f = cols["freq_hz"][i].get<double>();
+    CHECK(f > previous);  // columns come in frequency order, added points included
+    previous = f;
+    if (cols["index"][i].get<int>() >= planned && f > 55 && f < 90) added_near_fs = true;
+  }
+  CHECK(added_near_fs);
+  const auto full =
+      svc.get("/api/v1/sweeps/" + std::to_string(sweep.at("id").get<int>()) + "/export").json();
+  for (const auto& p : full.at("points")) {
+    const double settle = p.at("reading").at("settle_s").get<double>();
+    CHECK(settle >= 0.1);
+    CHECK(settle <= 2.0);
+  }
+}
