@@ -16,6 +16,7 @@ std::vector<Route> api_routes() {
   add_sweep_routes(r);
   add_calibration_routes(r);
   add_job_routes(r);
+  add_check_routes(r);
   return r;
 }
 

@@ -68,6 +68,7 @@ void add_reading_routes(std::vector<Route>& r);      // api_reading_routes.cpp
 void add_sweep_routes(std::vector<Route>& r);        // api_sweep_routes.cpp
 void add_calibration_routes(std::vector<Route>& r);  // api_calibration_routes.cpp
 void add_job_routes(std::vector<Route>& r);          // api_job_routes.cpp
+void add_check_routes(std::vector<Route>& r);        // api_check_routes.cpp
 
 /// Path parameter i (1-based) of a matched route, as an id. Throws request.bad_value.
 std::int64_t path_id(const httplib::Request& req, int i = 1);

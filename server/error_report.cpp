@@ -5,6 +5,8 @@
 #include <string>
 
 #include "dsp/circuit.hpp"
+#include "dsp/circuit_fit.hpp"
+#include "dsp/part_marking.hpp"
 #include "dsp/part_spec.hpp"
 #include "dsp/recording_analysis.hpp"
 #include "server/error.hpp"
@@ -21,6 +23,10 @@ ErrorInfo describe_current_error() {
   } catch (const dsp::CircuitError& e) {
     return {e.id(), e.message(), e.hint()};
   } catch (const dsp::PartSpecError& e) {
+    return {e.id(), e.what(), e.hint()};
+  } catch (const dsp::MarkingError& e) {
+    return {e.id(), e.what(), "docs/verdicts.md shows the markings it reads"};
+  } catch (const dsp::FitError& e) {
     return {e.id(), e.what(), e.hint()};
   } catch (const std::invalid_argument& e) {
     return {"analysis.bad_config", e.what(), "check the options against the command's help"};

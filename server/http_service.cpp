@@ -72,7 +72,8 @@ int status_for(const std::string& id) {
   if (id == "engine.queue_full" || id == "events.too_many_clients") return 429;
   if (id == "engine.stopping" || starts(id, "device.")) return 503;
   if (starts(id, "request.") || starts(id, "config.") || starts(id, "part.") ||
-      starts(id, "measure.") || starts(id, "circuit."))
+      starts(id, "measure.") || starts(id, "circuit.") || starts(id, "check.") ||
+      starts(id, "marking.") || starts(id, "fit."))
     return 400;
   return 500;
 }
