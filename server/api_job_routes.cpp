@@ -7,6 +7,7 @@
 #include "server/api_routes.hpp"
 #include "server/error.hpp"
 #include "server/event_bus.hpp"
+#include "server/job_report.hpp"
 #include "server/store.hpp"
 
 namespace tb {
@@ -72,6 +73,20 @@ PartRecord need_part(const Store& s, std::int64_t id) {
   auto p = s.part(id);
   if (!p) not_found("part", id);
   return *p;
+}
+
+PartHistory history(const Store& s, const PartRecord& p) {
+  return {p, s.part_readings(p.id), s.part_sweeps(p.id), s.verdicts(p.id)};
+}
+
+// ?format= of a report: "html" (the default) or "csv".
+std::string report_format(const httplib::Request& req) {
+  const auto f = req.has_param("format") ? req.get_param_value("format") : "html";
+  if (f != "html" && f != "csv") {
+    throw Error("request.bad_value", "format must be html or csv, got '" + f + "'",
+                "add ?format=html for the printable page or ?format=csv for a spreadsheet");
+  }
+  return f;
 }
 
 const std::vector<std::string_view> kJobFields{"make", "model", "serial", "notes"};
@@ -140,9 +155,45 @@ void add_job_routes(std::vector<Route>& r) {
                  p.id = ctx.store.add_part(p);
                  return ApiReply{201, to_json(need_part(ctx.store, p.id))};
                }});
-  r.push_back({"GET", "/api/v1/parts/{id}", Access::read, "one part",
+  r.push_back({"GET", "/api/v1/jobs/{id}/report", Access::read,
+               "the job as a printable page or CSV (?format=html|csv)",
                [](ApiContext& ctx, const httplib::Request& req) {
-                 return ApiReply{200, to_json(need_part(ctx.store, path_id(req)))};
+                 const auto id = path_id(req);
+                 const auto format = report_format(req);
+                 JobReport report;
+                 report.job = need_job(ctx.store, id);
+                 for (const auto& p : ctx.store.parts(id))
+                   report.parts.push_back(history(ctx.store, p));
+                 report.date = utc_now_iso().substr(0, 10);
+                 report.workshop = req.get_param_value("workshop");
+                 if (report.workshop.size() > 200) {
+                   throw Error("request.out_of_range", "workshop is longer than 200 characters",
+                               "shorten it");
+                 }
+                 const std::string name = "job-" + std::to_string(id);
+                 if (format == "csv") {
+                   return ApiReply::file(job_report_csv(report), "text/csv; charset=utf-8",
+                                         name + ".csv");
+                 }
+                 // No file name: the browser shows the page, ready to print.
+                 return ApiReply::file(job_report_html(report), "text/html; charset=utf-8", "");
+               }});
+  r.push_back({"GET", "/api/v1/parts/{id}", Access::read,
+               "one part with its readings and sweeps by role and its verdicts",
+               [](ApiContext& ctx, const httplib::Request& req) {
+                 const auto p = need_part(ctx.store, path_id(req));
+                 auto j = to_json(p);
+                 j.update(part_history_json(history(ctx.store, p)));
+                 return ApiReply{200, j};
+               }});
+  r.push_back({"GET", "/api/v1/parts/{id}/verdicts", Access::read,
+               "a part's verdicts, newest first", [](ApiContext& ctx, const httplib::Request& req) {
+                 const auto id = path_id(req);
+                 need_part(ctx.store, id);
+                 nlohmann::json out = nlohmann::json::array();
+                 for (const auto& v : ctx.store.verdicts(id))
+                   out.push_back(verdict_json(v));
+                 return ApiReply{200, {{"verdicts", out}}};
                }});
   r.push_back({"PUT", "/api/v1/parts/{id}", Access::change, "change a part's fields",
                [](ApiContext& ctx, const httplib::Request& req) {
@@ -152,7 +203,8 @@ void add_job_routes(std::vector<Route>& r) {
                  ctx.store.update_part(p);
                  return ApiReply{200, to_json(need_part(ctx.store, id))};
                }});
-  r.push_back({"DELETE", "/api/v1/parts/{id}", Access::change, "delete a part",
+  r.push_back({"DELETE", "/api/v1/parts/{id}", Access::change,
+               "delete a part and its verdicts (its readings and sweeps stay)",
                [](ApiContext& ctx, const httplib::Request& req) {
                  const auto id = path_id(req);
                  if (!ctx.store.delete_part(id)) not_found("part", id);

@@ -18,6 +18,7 @@ ReadingTask reading_task(const nlohmann::json& b) {
   t.level_fs = api::opt_number(b, "level_fs");
   t.duration_s = api::opt_number(b, "duration_s");
   t.part_id = api::opt_id(b, "part_id");
+  t.role = part_role_field(b, t.part_id);
   t.swap_average = api::opt_bool(b, "swap_average").value_or(false);
   if (auto k = api::opt_text(b, "kind")) {
     t.force_kind = dsp::parse_part_kind(*k);
@@ -48,9 +49,9 @@ void add_reading_routes(std::vector<Route>& r) {
   r.push_back({"POST", "/api/v1/readings", Access::change,
                "take one reading (\"wait\": true answers with the reading)",
                [](ApiContext& ctx, const httplib::Request& req) {
-                 const auto b =
-                     api::parse_body(req.body, {"freq_hz", "level_fs", "duration_s", "kind",
-                                                "part_class", "part_id", "swap_average", "wait"});
+                 const auto b = api::parse_body(
+                     req.body, {"freq_hz", "level_fs", "duration_s", "kind", "part_class",
+                                "part_id", "role", "swap_average", "wait"});
                  const auto task = reading_task(b);
                  check_part(ctx.store, task.part_id);
                  const auto queued = ctx.engine.submit(task);
@@ -106,6 +107,18 @@ void add_reading_routes(std::vector<Route>& r) {
                  if (!rec) not_found("reading", id);
                  return ApiReply{200, to_json(*rec)};
                }});
+  r.push_back({"PUT", "/api/v1/readings/{id}", Access::change,
+               "file a saved reading under a part and role, or unfile it",
+               [](ApiContext& ctx, const httplib::Request& req) {
+                 const auto id = path_id(req);
+                 const auto b = api::parse_body(req.body, {"part_id", "role"});
+                 const auto rec = ctx.store.reading(id);
+                 if (!rec) not_found("reading", id);
+                 const auto [part_id, role] = filing_from(b, rec->part_id, rec->role);
+                 check_part(ctx.store, part_id);
+                 ctx.store.file_reading(id, part_id, role);
+                 return ApiReply{200, to_json(*ctx.store.reading(id))};
+               }});
   r.push_back({"DELETE", "/api/v1/readings/{id}", Access::change, "delete a saved reading",
                [](ApiContext& ctx, const httplib::Request& req) {
                  const auto id = path_id(req);
@@ -115,9 +128,9 @@ void add_reading_routes(std::vector<Route>& r) {
   r.push_back({"POST", "/api/v1/watch", Access::change,
                "take readings continuously (per_s a second) until stopped",
                [](ApiContext& ctx, const httplib::Request& req) {
-                 const auto b =
-                     api::parse_body(req.body, {"per_s", "freq_hz", "level_fs", "duration_s",
-                                                "kind", "part_class", "part_id", "swap_average"});
+                 const auto b = api::parse_body(
+                     req.body, {"per_s", "freq_hz", "level_fs", "duration_s", "kind", "part_class",
+                                "part_id", "role", "swap_average"});
                  WatchTask w;
                  w.each = reading_task(b);
                  w.per_s = api::opt_number(b, "per_s").value_or(1.0);

@@ -51,6 +51,31 @@ std::string export_format(const httplib::Request& req) {
   return f;
 }
 
+std::string part_role_field(const nlohmann::json& body,
+                            const std::optional<std::int64_t>& part_id) {
+  const auto role = api::opt_text(body, "role");
+  if (!role) return "original";
+  if (!parse_part_role(*role)) {
+    throw Error("request.bad_value", "role must be original or replacement, got '" + *role + "'",
+                "original: the part as found in the unit; replacement: the part fitted instead");
+  }
+  if (!part_id) {
+    throw Error(
+        "request.missing_field", "a role needs a part_id",
+        "give the part the reading is of, e.g. {\"part_id\": 4, \"role\": \"" + *role + "\"}");
+  }
+  return *role;
+}
+
+std::pair<std::optional<std::int64_t>, PartRole> filing_from(const nlohmann::json& body,
+                                                             std::optional<std::int64_t> part_id,
+                                                             PartRole role) {
+  if (body.contains("part_id"))
+    part_id = body["part_id"].is_null() ? std::nullopt : api::opt_id(body, "part_id");
+  if (body.contains("role")) role = *parse_part_role(part_role_field(body, part_id));
+  return {part_id, part_id ? role : PartRole::original};
+}
+
 void not_found(const std::string& what, std::int64_t id) {
   throw Error(what + ".not_found", "no " + what + " with id " + std::to_string(id),
               "list them with GET /api/v1/" + what + "s");

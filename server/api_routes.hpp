@@ -4,11 +4,16 @@
 // docs/api.md to it.
 #pragma once
 
+#include <cstdint>
 #include <functional>
+#include <optional>
 #include <string>
+#include <utility>
 #include <vector>
 
 #include <nlohmann/json.hpp>
+
+#include "server/store.hpp"
 
 namespace httplib {
 struct Request;
@@ -19,7 +24,6 @@ namespace tb {
 class Engine;
 class EventBus;
 class LiveSettings;
-class Store;
 
 struct ApiReply {
   ApiReply() = default;
@@ -81,6 +85,18 @@ ApiReply task_reply(Engine& engine, const struct TaskInfo& queued, bool wait, do
 
 /// The ?format= of an export: "json" (the default) or "csv"; throws request.bad_value.
 std::string export_format(const httplib::Request& req);
+
+/// The `role` of a request that files its reading or sweep under `part_id`: "original"
+/// (the default) or "replacement". Throws request.bad_value for another value and
+/// request.missing_field for a role without a part_id.
+std::string part_role_field(const nlohmann::json& body, const std::optional<std::int64_t>& part_id);
+
+/// PUT /readings/{id} and /sweeps/{id}: the part and role a record is filed under after
+/// the body {"part_id": ID or null, "role": ...}; fields left out keep `part_id` and
+/// `role`. Throws request.* as part_role_field.
+std::pair<std::optional<std::int64_t>, PartRole> filing_from(const nlohmann::json& body,
+                                                             std::optional<std::int64_t> part_id,
+                                                             PartRole role);
 
 /// A 404 with id `what`.not_found, e.g. not_found("sweep", 7).
 [[noreturn]] void not_found(const std::string& what, std::int64_t id);

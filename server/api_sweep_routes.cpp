@@ -36,7 +36,7 @@ void add_sweep_routes(std::vector<Route>& r) {
        [](ApiContext& ctx, const httplib::Request& req) {
          const auto b = api::parse_body(
              req.body, {"start_hz", "stop_hz", "points_per_decade", "level_fs", "duration_s",
-                        "refine", "target_u_pct", "label", "part_id", "wait"});
+                        "refine", "target_u_pct", "label", "part_id", "role", "wait"});
          SweepTask t;
          t.start_hz = api::opt_number(b, "start_hz").value_or(t.start_hz);
          t.stop_hz = api::opt_number(b, "stop_hz").value_or(t.stop_hz);
@@ -56,6 +56,7 @@ void add_sweep_routes(std::vector<Route>& r) {
            throw Error("request.out_of_range", "label is longer than 200 characters", "shorten it");
          }
          t.part_id = api::opt_id(b, "part_id");
+         t.role = part_role_field(b, t.part_id);
          if (t.part_id && !ctx.store.part(*t.part_id)) not_found("part", *t.part_id);
          const auto queued = ctx.engine.submit(t);
          return task_reply(ctx.engine, queued, api::opt_bool(b, "wait").value_or(false), 600,
@@ -98,6 +99,17 @@ void add_sweep_routes(std::vector<Route>& r) {
                  }
                  ctx.engine.cancel(*task);
                  return ApiReply{202, {{"cancelling", id}, {"task_id", *task}}};
+               }});
+  r.push_back({"PUT", "/api/v1/sweeps/{id}", Access::change,
+               "file a sweep under a part and role, or unfile it",
+               [](ApiContext& ctx, const httplib::Request& req) {
+                 const auto id = path_id(req);
+                 const auto b = api::parse_body(req.body, {"part_id", "role"});
+                 const auto s = need_sweep(ctx.store, id);
+                 const auto [part_id, role] = filing_from(b, s.part_id, s.role);
+                 if (part_id && !ctx.store.part(*part_id)) not_found("part", *part_id);
+                 ctx.store.file_sweep(id, part_id, role);
+                 return ApiReply{200, to_json(need_sweep(ctx.store, id))};
                }});
   r.push_back({"DELETE", "/api/v1/sweeps/{id}", Access::change, "delete a sweep and its points",
                [](ApiContext& ctx, const httplib::Request& req) {

@@ -29,6 +29,11 @@ const std::vector<TrayPart>& demo_tray() {
       {"LLA-26-131", "C41", "470 µF 35 V", "cap 470u esr 0.9 leak 50k",
        "supply filter electrolytic, suspected dried out"},
       {"LLA-26-131", "C12", "100n K 400 V", "cap 100n esr 1.5", "left-channel coupling capacitor"},
+      // The new parts fitted in place of two of the above.
+      {"LLA-26-131", "C41", "470 µF 35 V 105 °C (new)", "cap 470u esr 0.08 leak 2meg",
+       "replacement supply filter electrolytic, low ESR", "replacement"},
+      {"LLA-26-130", "L2", "0.56 mH (new, 1.0 mm wire)", "coil 0.56m r 0.22 cp 25p",
+       "replacement mid-range air-core coil, heavier wire", "replacement"},
   };
   return tray;
 }
@@ -38,7 +43,7 @@ int seed_demo_jobs(Store& store) {
   for (const auto& j : demo_jobs()) {
     const auto job_id = store.add_job(j);
     for (const auto& p : demo_tray()) {
-      if (p.job != j.serial) continue;
+      if (p.job != j.serial || p.role != "original") continue;
       PartRecord rec;
       rec.job_id = job_id;
       rec.designator = p.designator;
@@ -57,7 +62,8 @@ nlohmann::json tray_json() {
                     {"designator", p.designator},
                     {"marking", p.marking},
                     {"part", p.part},
-                    {"note", p.note}});
+                    {"note", p.note},
+                    {"role", p.role}});
   }
   return list;
 }

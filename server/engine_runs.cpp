@@ -160,6 +160,7 @@ nlohmann::json Engine::run_reading(const ReadingTask& t, const Settings& s, cons
   e.data["task_id"] = task_id;
   e.data["device"] = device_id();
   if (t.part_id) e.data["part_id"] = *t.part_id;
+  if (t.part_id) e.data["role"] = t.role;
   if (bench_) e.data["bench_part"] = bench_part_;
   e.data["taken_at"] = utc_now_iso();
   publish(e);

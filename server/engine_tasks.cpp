@@ -164,6 +164,7 @@ nlohmann::json reading_json(const ReadingTask& r) {
   if (r.part_class) j["part_class"] = std::string(dsp::part_class_name(*r.part_class));
   if (r.swap_average) j["swap_average"] = true;
   if (r.part_id) j["part_id"] = *r.part_id;
+  if (r.part_id) j["role"] = r.role;
   return j;
 }
 
@@ -186,6 +187,7 @@ nlohmann::json to_json(const TaskRequest& t) {
     j["refine"] = sw->refine;
     put(j, "target_u_pct", sw->target_u_pct);
     if (sw->part_id) j["part_id"] = *sw->part_id;
+    if (sw->part_id) j["role"] = sw->role;
   }
   if (const auto* c = std::get_if<CalibrationTask>(&t)) {
     j = {{"kind", c->kind}, {"freqs_hz", c->freqs_hz}};

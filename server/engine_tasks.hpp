@@ -25,6 +25,8 @@ struct ReadingTask {
   std::optional<dsp::PartKind> force_kind;
   std::optional<dsp::PartClass> part_class;
   std::optional<std::int64_t> part_id;
+  /// With part_id: "original" or "replacement" (PartRole in store.hpp).
+  std::string role = "original";
   /// Swap-and-average (server/swap_average.hpp): a second capture with the inputs
   /// swapped; no channel match needed. On a real jig the task asks the technician to swap
   /// the inputs and to put them back (prompts). Single readings only, not watch.
@@ -48,6 +50,8 @@ struct SweepTask {
   std::optional<double> target_u_pct;
   std::string label;
   std::optional<std::int64_t> part_id;
+  /// With part_id: "original" or "replacement" (PartRole in store.hpp).
+  std::string role = "original";
   int points() const;  ///< number of frequencies in the plan
   std::vector<double> frequencies() const;
 };

@@ -128,6 +128,7 @@ nlohmann::json to_json(const SweepRecord& s) {
           {"partial", s.status != SweepStatus::complete && s.status != SweepStatus::running},
           {"label", s.label},
           {"part_id", s.part_id ? nlohmann::json(*s.part_id) : nlohmann::json()},
+          {"role", s.part_id ? nlohmann::json(to_string(s.role)) : nlohmann::json()},
           {"params", s.params},
           {"end", s.end},
           {"points_saved", s.points_saved},
@@ -140,6 +141,7 @@ nlohmann::json to_json(const ReadingRecord& r) {
   j["taken_at"] = r.taken_at;
   j["origin"] = r.origin;
   j["part_id"] = r.part_id ? nlohmann::json(*r.part_id) : nlohmann::json();
+  j["role"] = r.part_id ? nlohmann::json(to_string(r.role)) : nlohmann::json();
   return j;
 }
 

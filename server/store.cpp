@@ -28,11 +28,14 @@ using Lock = std::lock_guard<std::mutex>;
 
 namespace {
 
-constexpr std::string_view kReadings = "SELECT id, taken_at, origin, part_id, body FROM readings";
+constexpr std::string_view kReadings =
+    "SELECT id, taken_at, origin, part_id, body, part_role FROM readings";
 constexpr std::string_view kSweeps =
     "SELECT id, started_at, ended_at, status, label, part_id, params, end_reason, "
-    "points_planned, (SELECT count(*) FROM sweep_points WHERE sweep_id = sweeps.id) "
-    "FROM sweeps";
+    "points_planned, (SELECT count(*) FROM sweep_points WHERE sweep_id = sweeps.id), "
+    "part_role FROM sweeps";
+constexpr std::string_view kVerdicts =
+    "SELECT id, part_id, taken_at, reading_id, sweep_id, body FROM part_verdicts";
 constexpr std::string_view kCalibrations =
     "SELECT id, taken_at, kind, device, sample_rate_hz, layout, rref_ohm, body FROM calibrations";
 constexpr std::string_view kJobs = "SELECT id, created_at, make, model, serial, notes FROM jobs";
@@ -48,8 +51,20 @@ SweepStatus status_from(const std::string& text) {
               "the database was changed by another program; restore a backup");
 }
 
+PartRole role_from(const std::string& text) {
+  if (auto r = parse_part_role(text)) return *r;
+  throw Error("store.read_failed", "reading a part's record: unknown role \"" + text + "\"",
+              "the database was changed by another program; restore a backup");
+}
+
 ReadingRecord reading_row(const Statement& st) {
-  return {st.int64_at(0), st.text_at(1), st.text_at(2), st.optional_int64_at(3), st.json_at(4)};
+  return {st.int64_at(0),          st.text_at(1), st.text_at(2),
+          st.optional_int64_at(3), st.json_at(4), role_from(st.text_at(5))};
+}
+
+VerdictRecord verdict_row(const Statement& st) {
+  return {st.int64_at(0),          st.int64_at(1),          st.text_at(2),
+          st.optional_int64_at(3), st.optional_int64_at(4), st.json_at(5)};
 }
 
 SweepRecord sweep_row(const Statement& st) {
@@ -64,6 +79,7 @@ SweepRecord sweep_row(const Statement& st) {
   r.end = st.json_at(7);
   r.points_planned = st.int_at(8);
   r.points_saved = st.int_at(9);
+  r.role = role_from(st.text_at(10));
   return r;
 }
 
@@ -101,6 +117,15 @@ std::optional<Row> by_id(sqlite3* db, std::string_view select, std::int64_t id,
   st.bind(1, id);
   if (!st.step()) return std::nullopt;
   return row(st);
+}
+
+// Every row of `select` whose part_id is `part_id`, by id, oldest first.
+template <class Row>
+std::vector<Row> of_part(sqlite3* db, std::string_view select, std::int64_t part_id,
+                         Row (*row)(const Statement&), const std::string& what) {
+  Statement st(db, std::string(select) + " WHERE part_id = ?1 ORDER BY id", Access::read, what);
+  st.bind(1, part_id);
+  return all_rows(st, row);
 }
 
 // limit < 0: no limit (SQLite's LIMIT -1).
@@ -199,6 +224,16 @@ std::string to_string(SweepStatus s) {
   return "failed";
 }
 
+std::string to_string(PartRole r) {
+  return r == PartRole::replacement ? "replacement" : "original";
+}
+
+std::optional<PartRole> parse_part_role(const std::string& text) {
+  if (text == "original") return PartRole::original;
+  if (text == "replacement") return PartRole::replacement;
+  return std::nullopt;
+}
+
 std::string utc_now_iso() {
   using namespace std::chrono;
   const auto now = floor<milliseconds>(system_clock::now());
@@ -258,11 +293,13 @@ int Store::latest_schema_version() {
 // Readings.
 
 std::int64_t Store::add_reading(const std::string& origin, const nlohmann::json& body,
-                                std::optional<std::int64_t> part_id) {
+                                std::optional<std::int64_t> part_id, PartRole role) {
   Lock lock(mutex_);
-  Statement st(db_, "INSERT INTO readings(taken_at, origin, part_id, body) VALUES (?1, ?2, ?3, ?4)",
+  Statement st(db_,
+               "INSERT INTO readings(taken_at, origin, part_id, body, part_role) "
+               "VALUES (?1, ?2, ?3, ?4, ?5)",
                Access::write, "saving a reading");
-  st.bind_all(utc_now_iso(), origin, part_id, body);
+  st.bind_all(utc_now_iso(), origin, part_id, body, to_string(role));
   if (step_write(st, {SQLITE_CONSTRAINT_FOREIGNKEY}) != SQLITE_DONE) {
     throw not_found("part", *part_id);
   }
@@ -292,16 +329,42 @@ bool Store::delete_reading(std::int64_t id) {
   return delete_by_id(db_, "readings", id, "deleting a reading");
 }
 
+// Readings and sweeps are filed the same way; `table` is one of the two.
+namespace {
+bool file_under_part(sqlite3* db, std::string_view table, std::int64_t id,
+                     std::optional<std::int64_t> part_id, PartRole role, const std::string& what) {
+  Statement st(db,
+               "UPDATE " + std::string(table) + " SET part_id = ?2, part_role = ?3 WHERE id = ?1",
+               Access::write, what);
+  st.bind_all(id, part_id, to_string(part_id ? role : PartRole::original));
+  if (step_write(st, {SQLITE_CONSTRAINT_FOREIGNKEY}) != SQLITE_DONE) {
+    throw not_found("part", *part_id);
+  }
+  return sqlite3_changes(db) > 0;
+}
+}  // namespace
+
+bool Store::file_reading(std::int64_t id, std::optional<std::int64_t> part_id, PartRole role) {
+  Lock lock(mutex_);
+  return file_under_part(db_, "readings", id, part_id, role, "filing a reading under a part");
+}
+
+std::vector<ReadingRecord> Store::part_readings(std::int64_t part_id) const {
+  Lock lock(mutex_);
+  return of_part(db_, kReadings, part_id, reading_row, "listing a part's readings");
+}
+
 // Sweeps.
 
 std::int64_t Store::begin_sweep(const nlohmann::json& params, int points_planned,
-                                const std::string& label, std::optional<std::int64_t> part_id) {
+                                const std::string& label, std::optional<std::int64_t> part_id,
+                                PartRole role) {
   Lock lock(mutex_);
   Statement st(db_,
-               "INSERT INTO sweeps(started_at, status, label, part_id, params, points_planned) "
-               "VALUES (?1, 'running', ?2, ?3, ?4, ?5)",
+               "INSERT INTO sweeps(started_at, status, label, part_id, params, points_planned, "
+               "part_role) VALUES (?1, 'running', ?2, ?3, ?4, ?5, ?6)",
                Access::write, "starting a sweep");
-  st.bind_all(utc_now_iso(), label, part_id, params, points_planned);
+  st.bind_all(utc_now_iso(), label, part_id, params, points_planned, to_string(role));
   if (step_write(st, {SQLITE_CONSTRAINT_FOREIGNKEY}) != SQLITE_DONE) {
     throw not_found("part", *part_id);
   }
@@ -364,6 +427,16 @@ std::vector<SweepRecord> Store::sweeps(int limit, std::int64_t before_id) const 
 bool Store::delete_sweep(std::int64_t id) {
   Lock lock(mutex_);
   return delete_by_id(db_, "sweeps", id, "deleting a sweep");
+}
+
+bool Store::file_sweep(std::int64_t id, std::optional<std::int64_t> part_id, PartRole role) {
+  Lock lock(mutex_);
+  return file_under_part(db_, "sweeps", id, part_id, role, "filing a sweep under a part");
+}
+
+std::vector<SweepRecord> Store::part_sweeps(std::int64_t part_id) const {
+  Lock lock(mutex_);
+  return of_part(db_, kSweeps, part_id, sweep_row, "listing a part's sweeps");
 }
 
 // Calibrations.
@@ -483,6 +556,37 @@ std::vector<PartRecord> Store::parts(std::int64_t job_id) const {
 bool Store::delete_part(std::int64_t id) {
   Lock lock(mutex_);
   return delete_by_id(db_, "parts", id, "deleting a part");
+}
+
+// Verdicts.
+
+std::int64_t Store::add_verdict(std::int64_t part_id, std::optional<std::int64_t> reading_id,
+                                std::optional<std::int64_t> sweep_id, const nlohmann::json& body) {
+  Lock lock(mutex_);
+  Statement st(db_,
+               "INSERT INTO part_verdicts(part_id, taken_at, reading_id, sweep_id, body) "
+               "VALUES (?1, ?2, ?3, ?4, ?5)",
+               Access::write, "saving a verdict");
+  st.bind_all(part_id, utc_now_iso(), reading_id, sweep_id, body);
+  if (step_write(st, {SQLITE_CONSTRAINT_FOREIGNKEY}) != SQLITE_DONE) {
+    // SQLite does not say which key failed: look.
+    if (!by_id(db_, kParts, part_id, part_row, "checking a verdict's part")) {
+      throw not_found("part", part_id);
+    }
+    if (reading_id && !by_id(db_, kReadings, *reading_id, reading_row, "checking a verdict")) {
+      throw not_found("reading", *reading_id);
+    }
+    throw not_found("sweep", sweep_id.value_or(0));
+  }
+  return sqlite3_last_insert_rowid(db_);
+}
+
+std::vector<VerdictRecord> Store::verdicts(std::int64_t part_id) const {
+  Lock lock(mutex_);
+  Statement st(db_, std::string(kVerdicts) + " WHERE part_id = ?1 ORDER BY id DESC", Access::read,
+               "listing a part's verdicts");
+  st.bind(1, part_id);
+  return all_rows(st, verdict_row);
 }
 
 // Access tokens.

@@ -1,5 +1,6 @@
 // The service's store: one SQLite file (WAL mode) holding every reading, every sweep and
-// its points, calibrations, repair jobs and their parts, and the hashes of access tokens.
+// its points, calibrations, repair jobs, their parts and the verdicts on those parts, and
+// the hashes of access tokens. A reading or sweep may be filed under a part, in a role.
 //
 // Every write is one transaction, committed before the call returns: a reading or a sweep
 // point that has been handed to the store survives a kill -9 of the process. The schema
@@ -35,12 +36,19 @@ namespace tb {
 enum class SweepStatus { running, complete, cancelled, interrupted, failed };
 std::string to_string(SweepStatus s);  ///< "running", "complete", ...
 
+/// What a reading or sweep filed under a part was taken of: the part as found in the unit
+/// ("original", the default) or the new part fitted in its place ("replacement").
+enum class PartRole { original, replacement };
+std::string to_string(PartRole r);                                 ///< "original", "replacement"
+std::optional<PartRole> parse_part_role(const std::string& text);  ///< nullopt if neither
+
 struct ReadingRecord {
   std::int64_t id = 0;
   std::string taken_at;  ///< UTC, ISO 8601 with milliseconds, "2026-12-02T05:18:16.123Z"
   std::string origin;    ///< "single", "continuous"
   std::optional<std::int64_t> part_id;
-  nlohmann::json body;  ///< the reading as the API returns it
+  nlohmann::json body;                 ///< the reading as the API returns it
+  PartRole role = PartRole::original;  ///< meaningful with a part_id
 };
 
 struct SweepRecord {
@@ -53,6 +61,7 @@ struct SweepRecord {
   nlohmann::json end;     ///< why it ended when not complete: {"id":..,"message":..}; null
   int points_saved = 0;
   int points_planned = 0;
+  PartRole role = PartRole::original;  ///< meaningful with a part_id
 };
 
 struct SweepPoint {
@@ -85,6 +94,17 @@ struct PartRecord {
   std::string marking;     ///< as printed on the part, e.g. "4n7 J 100V"
   std::string notes;
   std::string created_at;
+};
+
+/// One verdict on a part (pass/fail/inconclusive against tolerance, loss or a match),
+/// drawn from a reading or a sweep. The body is the verdict as its maker wrote it, e.g.
+/// {"kind":"tolerance","outcome":"fail","text":"…","role":"original"}.
+struct VerdictRecord {
+  std::int64_t id = 0;
+  std::int64_t part_id = 0;
+  std::string taken_at;
+  std::optional<std::int64_t> reading_id, sweep_id;  ///< null once that record is deleted
+  nlohmann::json body;
 };
 
 struct TokenRecord {
@@ -120,17 +140,24 @@ class Store {
   // Readings.
   /// Throws store.not_found for an unknown part_id (as does begin_sweep).
   std::int64_t add_reading(const std::string& origin, const nlohmann::json& body,
-                           std::optional<std::int64_t> part_id = std::nullopt);
+                           std::optional<std::int64_t> part_id = std::nullopt,
+                           PartRole role = PartRole::original);
   std::optional<ReadingRecord> reading(std::int64_t id) const;
   /// Newest first; `before_id` > 0 pages back from there.
   std::vector<ReadingRecord> readings(int limit, std::int64_t before_id = 0) const;
   std::optional<ReadingRecord> latest_reading() const;
   bool delete_reading(std::int64_t id);
+  /// Files a reading under a part in a role, or unfiles it (part_id empty, role original).
+  /// False if no such reading; throws store.not_found for an unknown part.
+  bool file_reading(std::int64_t id, std::optional<std::int64_t> part_id, PartRole role);
+  /// A part's readings, oldest first.
+  std::vector<ReadingRecord> part_readings(std::int64_t part_id) const;
 
   // Sweeps.
   std::int64_t begin_sweep(const nlohmann::json& params, int points_planned,
                            const std::string& label = "",
-                           std::optional<std::int64_t> part_id = std::nullopt);
+                           std::optional<std::int64_t> part_id = std::nullopt,
+                           PartRole role = PartRole::original);
   /// Saves one point (one transaction); a second point with the same index replaces it.
   /// Throws store.not_found for an unknown sweep.
   void add_sweep_point(std::int64_t sweep_id, const SweepPoint& point);
@@ -144,6 +171,10 @@ class Store {
   std::vector<SweepPoint> sweep_points(std::int64_t id) const;                   ///< by index
   std::vector<SweepRecord> sweeps(int limit, std::int64_t before_id = 0) const;  ///< newest first
   bool delete_sweep(std::int64_t id);  ///< with its points
+  /// As file_reading, for a sweep.
+  bool file_sweep(std::int64_t id, std::optional<std::int64_t> part_id, PartRole role);
+  /// A part's sweeps, oldest first, without their points.
+  std::vector<SweepRecord> part_sweeps(std::int64_t part_id) const;
 
   // Calibrations.
   std::int64_t add_calibration(const CalibrationRecord& c);  ///< id and taken_at are set here
@@ -162,7 +193,8 @@ class Store {
   bool update_job(const JobRecord& j);  ///< false if no such job
   std::optional<JobRecord> job(std::int64_t id) const;
   std::vector<JobRecord> jobs() const;  ///< newest first
-  bool delete_job(std::int64_t id);     ///< with its parts; their readings and sweeps stay
+  /// With its parts and their verdicts; their readings and sweeps stay, unfiled.
+  bool delete_job(std::int64_t id);
   /// Throws tb::Error store.not_found if the job does not exist, store.conflict if the
   /// job already has a part with this designator.
   std::int64_t add_part(const PartRecord& p);
@@ -171,7 +203,15 @@ class Store {
   bool update_part(const PartRecord& p);
   std::optional<PartRecord> part(std::int64_t id) const;
   std::vector<PartRecord> parts(std::int64_t job_id) const;  ///< by designator, C2 before C12
-  bool delete_part(std::int64_t id);
+  bool delete_part(std::int64_t id);  ///< with its verdicts; its readings and sweeps stay
+
+  // Verdicts on parts (a history: each one is kept).
+  /// Saves a verdict drawn from a reading and/or a sweep (either may be empty); returns its
+  /// id. Throws store.not_found for an unknown part, reading or sweep. The reading or
+  /// sweep need not be filed under the part.
+  std::int64_t add_verdict(std::int64_t part_id, std::optional<std::int64_t> reading_id,
+                           std::optional<std::int64_t> sweep_id, const nlohmann::json& body);
+  std::vector<VerdictRecord> verdicts(std::int64_t part_id) const;  ///< newest first
 
   // Access tokens (only hashes are stored).
   std::int64_t add_token(const std::string& role, const std::string& hash_hex);

@@ -79,6 +79,25 @@ CREATE TABLE access_tokens(
   hash_hex TEXT NOT NULL UNIQUE,
   created_at TEXT NOT NULL);
 )sql",
+    // 2: readings and sweeps of a part say whether they are of the part as found
+    // ("original") or of the part fitted in its place ("replacement"); verdicts on a part
+    // are kept as a history. A verdict goes with its part; it outlives the reading or sweep
+    // it was drawn from (the link is then cleared).
+    R"sql(
+ALTER TABLE readings ADD COLUMN part_role TEXT NOT NULL DEFAULT 'original'
+  CHECK(part_role IN ('original', 'replacement'));
+ALTER TABLE sweeps ADD COLUMN part_role TEXT NOT NULL DEFAULT 'original'
+  CHECK(part_role IN ('original', 'replacement'));
+
+CREATE TABLE part_verdicts(
+  id INTEGER PRIMARY KEY AUTOINCREMENT,
+  part_id INTEGER NOT NULL REFERENCES parts(id) ON DELETE CASCADE,
+  taken_at TEXT NOT NULL,
+  reading_id INTEGER REFERENCES readings(id) ON DELETE SET NULL,
+  sweep_id INTEGER REFERENCES sweeps(id) ON DELETE SET NULL,
+  body TEXT NOT NULL);
+CREATE INDEX part_verdicts_by_part ON part_verdicts(part_id, id);
+)sql",
 };
 
 }  // namespace
@@ -115,8 +134,9 @@ int stored_version(sqlite3* db, sqlite::Access access) {
   return found;
 }
 
-void migrate(sqlite3* db) {
-  for (int to = stored_version(db, sqlite::Access::write) + 1; to <= latest_version(); ++to) {
+void migrate(sqlite3* db, int up_to) {
+  if (up_to < 0 || up_to > latest_version()) up_to = latest_version();
+  for (int to = stored_version(db, sqlite::Access::write) + 1; to <= up_to; ++to) {
     const std::string what = "bringing the schema to version " + std::to_string(to);
     sqlite::Transaction tx(db, what);
     sqlite::exec(db, "CREATE TABLE IF NOT EXISTS schema_version(version INTEGER NOT NULL)",

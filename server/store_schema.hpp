@@ -19,7 +19,9 @@ int latest_version();
 /// store.read_failed / store.write_failed (per `access`) when SQLite fails.
 int stored_version(sqlite3* db, sqlite::Access access);
 
-/// Applies the migrations after the file's version, each in its own transaction.
-void migrate(sqlite3* db);
+/// Applies the migrations after the file's version up to `up_to` (the latest when
+/// negative or above it), each in its own transaction. Tests stop early to make a file
+/// as an older tonebridge left it.
+void migrate(sqlite3* db, int up_to = -1);
 
 }  // namespace tb::store_schema

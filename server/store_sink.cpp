@@ -10,6 +10,11 @@ std::optional<std::int64_t> part_of(const nlohmann::json& j) {
   return it->get<std::int64_t>();
 }
 
+// The role a reading's event or a sweep's params carry with a part_id; original if none.
+PartRole role_of(const nlohmann::json& j) {
+  return parse_part_role(j.value("role", "original")).value_or(PartRole::original);
+}
+
 SweepStatus sweep_status(const std::string& s) {
   if (s == "complete") return SweepStatus::complete;
   if (s == "cancelled") return SweepStatus::cancelled;
@@ -22,10 +27,10 @@ SweepStatus sweep_status(const std::string& s) {
 void StoreSink::deliver(EngineEvent& e) {
   auto& d = e.data;
   if (e.type == "reading") {
-    d["id"] = store_.add_reading(d.value("origin", "single"), d, part_of(d));
+    d["id"] = store_.add_reading(d.value("origin", "single"), d, part_of(d), role_of(d));
   } else if (e.type == "sweep.begin") {
     d["sweep_id"] = store_.begin_sweep(d.at("params"), d.value("points_planned", 0),
-                                       d.value("label", ""), part_of(d));
+                                       d.value("label", ""), part_of(d), role_of(d.at("params")));
   } else if (e.type == "sweep.point") {
     SweepPoint p;
     p.index = d.at("index").get<int>();

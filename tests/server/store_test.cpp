@@ -22,6 +22,8 @@
 #include <vector>
 
 #include "server/error.hpp"
+#include "server/sqlite_handle.hpp"
+#include "server/store_schema.hpp"
 #include "tests/support/signals.hpp"
 
 namespace fs = std::filesystem;
@@ -596,4 +598,145 @@ TEST_CASE("store: concurrent writers and readers see every reading", "[store]") 
   CHECK(rows.size() == kWriters * kEach);
   CHECK(std::count_if(rows.begin(), rows.end(),
                       [](const tb::ReadingRecord& r) { return r.origin == "writer2"; }) == kEach);
+}
+
+// A file as tonebridge left it before roles and verdicts (schema version 1), with a part
+// that has a reading and a sweep.
+void make_version_1_store(const fs::path& db) {
+  tb::sqlite::Connection conn;
+  std::string reason;
+  REQUIRE(tb::sqlite::open_connection(db, SQLITE_OPEN_READWRITE | SQLITE_OPEN_CREATE, conn,
+                                      reason) == SQLITE_OK);
+  tb::store_schema::migrate(conn.get(), 1);
+  conn.reset();
+  run_sql(db,
+          "INSERT INTO jobs(created_at, make, model, serial, notes) "
+          "VALUES ('2026-01-05T09:00:00.000Z', 'Quillon Audio', 'QA-40', 'LLA-26-099', '');"
+          "INSERT INTO parts(job_id, designator, marking, notes, created_at) "
+          "VALUES (1, 'C41', '470 uF 35 V', '', '2026-01-05T09:01:00.000Z');"
+          "INSERT INTO readings(taken_at, origin, part_id, body) "
+          "VALUES ('2026-01-05T09:02:00.000Z', 'single', 1, '{\"cs_f\": 4.1e-4}');"
+          "INSERT INTO sweeps(started_at, ended_at, status, label, part_id, params, "
+          "points_planned) VALUES ('2026-01-05T09:03:00.000Z', '2026-01-05T09:04:00.000Z', "
+          "'complete', 'C41 as found', 1, '{}', 2);");
+}
+
+TEST_CASE("store: a version 1 file migrates, its filed readings and sweeps become original",
+          "[store]") {
+  TempDir dir;
+  make_version_1_store(dir.db());
+  CHECK(query_text(dir.db(), "SELECT version FROM schema_version") == "1");
+  Store store(dir.db());
+  CHECK(store.schema_version() == Store::latest_schema_version());
+  CHECK(Store::latest_schema_version() == 2);
+  const auto r = store.reading(1);
+  REQUIRE(r);
+  CHECK(r->part_id == 1);
+  CHECK(r->role == tb::PartRole::original);
+  CHECK(r->body.at("cs_f").get<double>() == 4.1e-4);
+  const auto s = store.sweep(1);
+  REQUIRE(s);
+  CHECK(s->role == tb::PartRole::original);
+  CHECK(s->label == "C41 as found");
+  CHECK(store.part_readings(1).size() == 1);
+  CHECK(store.part_sweeps(1).size() == 1);
+  const auto v = store.add_verdict(1, 1, std::nullopt, {{"outcome", "fail"}});
+  CHECK(store.verdicts(1).front().id == v);
+}
+
+TEST_CASE("store: the role column refuses anything but original and replacement", "[store]") {
+  TempDir dir;
+  { Store store(dir.db()); }
+  run_sql(dir.db(), "INSERT INTO readings(taken_at, origin, body) VALUES ('t', 'single', '{}')");
+  sqlite3* conn = nullptr;
+  REQUIRE(sqlite3_open(dir.db().c_str(), &conn) == SQLITE_OK);
+  const int rc =
+      sqlite3_exec(conn, "UPDATE readings SET part_role = 'spare'", nullptr, nullptr, nullptr);
+  sqlite3_close(conn);
+  CHECK(rc == SQLITE_CONSTRAINT);
+}
+
+TEST_CASE("store: readings and sweeps are filed under a part in a role and refiled later",
+          "[store]") {
+  TempDir dir;
+  Store store(dir.db());
+  const auto job = store.add_job({});
+  const auto c41 = store.add_part({0, job, "C41", "", "", ""});
+  const auto l2 = store.add_part({0, job, "L2", "", "", ""});
+  const auto found = store.add_reading("single", {{"n", 1}}, c41);
+  const auto fitted = store.add_reading("single", {{"n", 2}}, c41, tb::PartRole::replacement);
+  const auto loose = store.add_reading("single", {{"n", 3}});
+  const auto sweep = store.begin_sweep(json::object(), 3, "L2", l2, tb::PartRole::replacement);
+  CHECK(store.reading(found)->role == tb::PartRole::original);
+  CHECK(store.reading(fitted)->role == tb::PartRole::replacement);
+  CHECK(store.sweep(sweep)->role == tb::PartRole::replacement);
+
+  // A reading taken before the part was chosen is filed afterwards.
+  CHECK(store.file_reading(loose, c41, tb::PartRole::replacement));
+  std::vector<std::int64_t> ids;
+  for (const auto& r : store.part_readings(c41))
+    ids.push_back(r.id);
+  CHECK(ids == std::vector<std::int64_t>{found, fitted, loose});
+  CHECK(store.reading(loose)->role == tb::PartRole::replacement);
+
+  CHECK(store.file_sweep(sweep, c41, tb::PartRole::original));
+  CHECK(store.part_sweeps(l2).empty());
+  CHECK(store.part_sweeps(c41).front().role == tb::PartRole::original);
+  // Unfiled, a record's role goes back to original.
+  CHECK(store.file_reading(fitted, std::nullopt, tb::PartRole::replacement));
+  CHECK_FALSE(store.reading(fitted)->part_id);
+  CHECK(store.reading(fitted)->role == tb::PartRole::original);
+
+  CHECK_FALSE(store.file_reading(9999, c41, tb::PartRole::original));
+  CHECK_FALSE(store.file_sweep(9999, c41, tb::PartRole::original));
+  CHECK(error_id([&] { store.file_reading(found, 9999, tb::PartRole::original); }) ==
+        "store.not_found");
+  CHECK(store.reading(found)->part_id == c41);
+  CHECK(tb::parse_part_role("replacement") == tb::PartRole::replacement);
+  CHECK_FALSE(tb::parse_part_role("Original"));
+}
+
+TEST_CASE("store: verdicts are a history, newest first, and go with their part", "[store]") {
+  TempDir dir;
+  Store store(dir.db());
+  const auto job = store.add_job({});
+  const auto part = store.add_part({0, job, "C12", "", "", ""});
+  const auto other = store.add_part({0, job, "C13", "", "", ""});
+  const auto reading = store.add_reading("single", json::object(), part);
+  const auto sweep = store.begin_sweep(json::object(), 2, "", part);
+  const json fail = {
+      {"kind", "loss"}, {"outcome", "fail"}, {"text", "ESR 3x the limit"}, {"role", "original"}};
+  const json pass = {{"kind", "tolerance"}, {"outcome", "pass"}, {"role", "replacement"}};
+  const auto first = store.add_verdict(part, reading, std::nullopt, fail);
+  const auto second = store.add_verdict(part, std::nullopt, sweep, pass);
+  store.add_verdict(other, std::nullopt, std::nullopt, pass);
+
+  const auto list = store.verdicts(part);
+  REQUIRE(list.size() == 2);
+  CHECK(list[0].id == second);
+  CHECK(list[0].sweep_id == sweep);
+  CHECK_FALSE(list[0].reading_id);
+  CHECK(list[1].id == first);
+  CHECK(list[1].reading_id == reading);
+  CHECK(list[1].body == fail);
+  CHECK(list[1].part_id == part);
+  CHECK_FALSE(list[1].taken_at.empty());
+
+  CHECK(error_id([&] { store.add_verdict(9999, std::nullopt, std::nullopt, pass); }) ==
+        "store.not_found");
+  CHECK(error_id([&] { store.add_verdict(part, 9999, std::nullopt, pass); }) == "store.not_found");
+  CHECK(error_id([&] { store.add_verdict(part, std::nullopt, 9999, pass); }) == "store.not_found");
+  CHECK(store.verdicts(part).size() == 2);
+
+  // The verdict outlives the reading it was drawn from; the link is cleared.
+  CHECK(store.delete_reading(reading));
+  CHECK_FALSE(store.verdicts(part).back().reading_id);
+
+  CHECK(store.delete_part(part));
+  CHECK(store.verdicts(part).empty());
+  CHECK(query_text(dir.db(), "SELECT count(*) FROM part_verdicts") == "1");
+  CHECK(store.verdicts(other).size() == 1);
+  // A part of a deleted job takes its verdicts with it too.
+  CHECK(store.delete_job(job));
+  CHECK(query_text(dir.db(), "SELECT count(*) FROM part_verdicts") == "0");
 }
