@@ -51,16 +51,30 @@ std::vector<std::int64_t> ids_of(const nlohmann::json& b, const char* field, std
   return ids;
 }
 
+ReadingRecord need_record(const Store& store, std::int64_t id) {
+  auto r = store.reading(id);
+  if (!r) not_found("reading", id);
+  return *r;
+}
+
 // The marking to judge a reading against: the request's, else its part's.
-std::string marking_for(const Store& store, const nlohmann::json& b,
-                        const nlohmann::json& reading) {
+std::string marking_for(const Store& store, const nlohmann::json& b, const ReadingRecord& reading) {
   if (auto m = api::opt_text(b, "marking")) return *m;
-  if (reading.contains("part_id") && reading["part_id"].is_number_integer()) {
-    if (auto p = store.part(reading["part_id"].get<std::int64_t>()); p && !p->marking.empty())
-      return p->marking;
+  if (reading.part_id) {
+    if (auto p = store.part(*reading.part_id); p && !p->marking.empty()) return p->marking;
   }
   throw Error("request.missing_field", "no marking to judge the reading against",
               "give \"marking\" (e.g. \"4n7 J\"), or file the reading under a part that has one");
+}
+
+// A verdict on a reading filed under a part joins the part's history (the job report shows
+// it); the reply says which record it became.
+void keep_verdict(Store& store, const ReadingRecord& reading, nlohmann::json& verdict) {
+  verdict["reading_id"] = reading.id;
+  if (!reading.part_id) return;
+  verdict["role"] = to_string(reading.role);
+  verdict["verdict_id"] = store.add_verdict(*reading.part_id, reading.id, std::nullopt, verdict);
+  verdict["part_id"] = *reading.part_id;
 }
 
 dsp::DriverParams free_air_params(const Store& store, std::int64_t sweep_id) {
@@ -88,7 +102,7 @@ void add_check_routes(std::vector<Route>& r) {
                                  marking_json(api::need_text(b, "text"),
                                               parse_kind(api::opt_text(b, "kind").value_or("")))};
                }});
-  r.push_back({"POST", "/api/v1/checks/tolerance", Access::read,
+  r.push_back({"POST", "/api/v1/checks/tolerance", Access::change,
                "pass, fail or inconclusive: a reading against its marking's tolerance",
                [](ApiContext& ctx, const httplib::Request& req) {
                  const auto b = api::parse_body(req.body, {"reading_id", "marking", "kind"});
@@ -96,14 +110,14 @@ void add_check_routes(std::vector<Route>& r) {
                  if (!id)
                    throw Error("request.missing_field", "field 'reading_id' is required",
                                "e.g. {\"reading_id\": 12, \"marking\": \"4n7 J\"}");
-                 const auto reading = need_reading(ctx.store, *id);
-                 auto v = tolerance_verdict(reading, marking_for(ctx.store, b, reading),
+                 const auto reading = need_record(ctx.store, *id);
+                 auto v = tolerance_verdict(reading.body, marking_for(ctx.store, b, reading),
                                             parse_kind(api::opt_text(b, "kind").value_or("")));
-                 v["reading_id"] = *id;
+                 keep_verdict(ctx.store, reading, v);
                  return ApiReply{200, v};
                }});
   r.push_back(
-      {"POST", "/api/v1/checks/loss", Access::read,
+      {"POST", "/api/v1/checks/loss", Access::change,
        "an electrolytic's D at 100/120 Hz against the usual limit for its voltage",
        [](ApiContext& ctx, const httplib::Request& req) {
          const auto b = api::parse_body(req.body, {"reading_id", "marking", "rated_voltage_v"});
@@ -111,12 +125,12 @@ void add_check_routes(std::vector<Route>& r) {
          if (!id)
            throw Error("request.missing_field", "field 'reading_id' is required",
                        "e.g. {\"reading_id\": 12, \"marking\": \"2200µF 25V\"}");
-         const auto reading = need_reading(ctx.store, *id);
+         const auto reading = need_record(ctx.store, *id);
          std::string marking = api::opt_text(b, "marking").value_or("");
          if (marking.empty() && !b.contains("rated_voltage_v"))
            marking = marking_for(ctx.store, b, reading);
-         auto v = loss_verdict(reading, marking, api::opt_number(b, "rated_voltage_v"));
-         v["reading_id"] = *id;
+         auto v = loss_verdict(reading.body, marking, api::opt_number(b, "rated_voltage_v"));
+         keep_verdict(ctx.store, reading, v);
          return ApiReply{200, v};
        }});
   r.push_back(

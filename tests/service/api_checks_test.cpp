@@ -80,6 +80,21 @@ TEST_CASE("tolerance verdicts on a saved reading, and clear refusals", "[service
   CHECK(
       check(svc, "loss", {{"reading_id", id}, {"rated_voltage_v", 25}}, 400).at("error").at("id") ==
       "check.wrong_frequency");
+  // Filed under a part: its marking is used and the verdict joins the part's history.
+  const auto job = svc.post("/api/v1/jobs", {{"make", "Larkspur test set"}}).json().at("id");
+  const auto part = svc.post("/api/v1/jobs/" + std::to_string(job.get<int>()) + "/parts",
+                             {{"designator", "C7"}, {"marking", "475K 63V"}})
+                        .json()
+                        .at("id")
+                        .get<std::int64_t>();
+  const auto filed = reading(svc, {{"part_id", part}, {"role", "replacement"}});
+  const auto kept = check(svc, "tolerance", {{"reading_id", filed}});
+  CHECK(kept.at("outcome") == "pass");
+  CHECK(kept.at("role") == "replacement");
+  const auto history = svc.get("/api/v1/parts/" + std::to_string(part) + "/verdicts").json();
+  INFO(history.dump());
+  REQUIRE(history.at("verdicts").size() == 1);
+  CHECK(history["verdicts"][0].at("outcome") == "pass");
   const auto decoded = svc.post("/api/v1/markings/decode", {{"text", "104K"}, {"kind", "C"}});
   REQUIRE(decoded.status == 200);
   // IEC 60062: 104 = 10 x 10^4 pF = 100 nF, K = ±10 %.
