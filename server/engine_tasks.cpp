@@ -100,6 +100,17 @@ void validate(const TaskRequest& t, const Settings& s) {
     in_range("points", sw->points(), 2, 400, "use fewer points per decade or a narrower range");
     lim.level(sw->level_fs);
     lim.duration(sw->duration_s);
+    if (sw->method != "stepped" && sw->method != "multisine") {
+      throw Error("request.bad_value", "no sweep method named '" + sw->method + "'",
+                  "use stepped (one tone after another) or multisine (all at once)");
+    }
+    if (sw->periods) {
+      if (sw->method != "multisine") {
+        throw Error("request.bad_value", "periods applies to multisine sweeps only",
+                    "leave out periods, or give method multisine");
+      }
+      in_range("periods", *sw->periods, 2, 256, "analysed multisine periods, e.g. 6");
+    }
   }
   if (const auto* c = std::get_if<CalibrationTask>(&t)) {
     if (c->kind != "channel_match" && c->kind != "open" && c->kind != "short" &&
@@ -181,6 +192,8 @@ nlohmann::json to_json(const TaskRequest& t) {
          {"label", sw->label}};
     put(j, "level_fs", sw->level_fs);
     put(j, "duration_s", sw->duration_s);
+    j["method"] = sw->method;
+    if (sw->periods) j["periods"] = *sw->periods;
     if (sw->part_id) j["part_id"] = *sw->part_id;
   }
   if (const auto* c = std::get_if<CalibrationTask>(&t)) {

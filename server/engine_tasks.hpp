@@ -37,11 +37,16 @@ struct WatchTask {
   double per_s = 1;
 };
 
-/// Stepped sine, log spaced from start_hz to stop_hz inclusive.
+/// A sweep, log spaced from start_hz to stop_hz inclusive. method "stepped": one reading
+/// per frequency, duration_s each. method "multisine": all frequencies at once in one
+/// capture (multisine_sweep.hpp) of `periods` analysed periods (2 .. 256), or as many as
+/// fill duration_s (at least 2); level_fs is then the peak of the whole multisine.
 struct SweepTask {
   double start_hz = 100, stop_hz = 10000;
   int points_per_decade = 10;
   std::optional<double> level_fs, duration_s;
+  std::string method = "stepped";
+  std::optional<int> periods;  ///< multisine only
   std::string label;
   std::optional<std::int64_t> part_id;
   int points() const;  ///< number of frequencies in the plan
