@@ -284,126 +284,13 @@ AnalysisResult analyze_recording(std::span<const double> a, std::span<const doub
               " Hz over the recording)",
           "record with output and input on one device clock, or use a shorter recording");
     }
-    r.freq_hz = freq;
-
-    std::vector<cplx> ratio(blocks.a.size());
-    for (std::size_t i = 0; i < ratio.size(); ++i)
-      ratio[i] = blocks.b[i] / blocks.a[i];
-    // For any passive part |V_B/V_A| < 1 in both layouts (|Z + Rref| > |Z| when Re Z >= 0),
-    // so node B reading well above node A means the inputs are the other way round. The
-    // margin leaves room for an uncalibrated gain mismatch (two inputs +-0.3 dB each).
-    const double corrected = std::abs(mean_of(ratio) / config.bridge.channel_match);
-    if (config.check_swapped && corrected > 1.10) {
-      throw AnalysisError("analysis.channels_swapped",
-                          "at " + fmt(freq, 6) + " Hz channel 2 reads " + fmt(corrected, 3) +
-                              " times channel 1, which no passive part can do",
-                          "node A seems to be on channel 2: pass --swap (or check the wiring)");
-    }
-    r.settle = check_settled(ratio, {});
-    const std::size_t first = r.settle.first;
-    const std::size_t last = std::max(r.settle.last, first);
-    r.blocks_used = last - first;
-    if (r.blocks_used == 0) {
-      r.settle.first = 0;
-      r.settle.last = ratio.size();
-      r.blocks_used = ratio.size();
-    }
-    const auto used = [&](const std::vector<cplx>& v) {
-      return std::span<const cplx>(v).subspan(r.settle.first, r.blocks_used);
-    };
-    BridgeConfig bridge = config.bridge;
-    if (config.input_load) bridge.input_impedance_ohm = config.input_load->at(freq);
-    std::vector<cplx> z_blocks;
-    try {
-      for (std::size_t i = r.settle.first; i < r.settle.first + r.blocks_used; ++i)
-        z_blocks.push_back(solve_bridge(bridge, blocks.a[i], blocks.b[i]));
-    } catch (const std::domain_error&) {
-      throw AnalysisError(
-          "analysis.bridge_singular",
-          "at " + fmt(freq, 6) + " Hz node B reads the same as " +
-              std::string(config.bridge.layout == Layout::part_low ? "node A" : "ground"),
-          config.bridge.layout == Layout::part_low
-              ? "the part is open or missing: check the connection"
-              : "the part is open or node B is shorted to ground: check the jig");
-    }
-    r.z = mean_with_type_a(z_blocks);
-    r.ratio = mean_of(used(ratio));
-    {
-      const auto spread = block_spread(used(ratio));
-      r.ratio_u_rel = spread.n > 1 ? spread.spread / std::sqrt(static_cast<double>(spread.n)) /
-                                         std::abs(spread.mean)
-                                   : 0.0;
-    }
-
-    // Type B inputs, by sensitivity of the bridge solution at the mean ratio.
-    const BridgeConfig& bc = bridge;
-    if (config.rref_tolerance_rel > 0) {
-      r.z.type_b.push_back(
-          {"rref_tolerance",
-           sensitivity(bc, r.ratio, [](BridgeConfig& c, double h) { c.rref_ohm *= 1 + h; }),
-           rectangular_u(config.rref_tolerance_rel), 1e9, true});
-    }
-    // Temperature: the same relative change of Rref as its tolerance, hence the same
-    // sensitivity; half-width tempco * span.
-    const double tempco_half_width = config.rref_tempco_ppm_per_k * 1e-6 * config.rref_temp_span_k;
-    if (tempco_half_width > 0) {
-      r.z.type_b.push_back(
-          {"rref_tempco",
-           sensitivity(bc, r.ratio, [](BridgeConfig& c, double h) { c.rref_ohm *= 1 + h; }),
-           rectangular_u(tempco_half_width)});
-    }
-    // Series inductance of Rref: a reactance j w L in series with it. The step is taken as a
-    // small reactance relative to |Rref| (h |Rref| ohm, i.e. h |Rref| / w henry), then scaled
-    // to ohm per henry.
-    if (config.rref_inductance_h > 0) {
-      const double w = 2 * std::numbers::pi * freq;
-      const double mag = std::abs(bc.rref_ohm);
-      r.z.type_b.push_back(
-          {"rref_reactance",
-           sensitivity(bc, r.ratio,
-                       [mag](BridgeConfig& c, double h) { c.rref_ohm += cplx(0, h * mag); }) *
-               (w / mag),
-           rectangular_u(config.rref_inductance_h)});
-    }
-    if (bc.input_impedance_ohm && config.input_impedance_u_rel > 0) {
-      r.z.type_b.push_back(
-          {"input_impedance",
-           sensitivity(bc, r.ratio,
-                       [](BridgeConfig& c, double h) { *c.input_impedance_ohm *= 1 + h; }),
-           config.input_impedance_u_rel});
-    }
-    // The channel match's own scatter and its interpolation between calibration
-    // frequencies move Z through the same two sensitivities (gain, phase of H).
-    if (config.channel_gain_u_rel > 0 || config.channel_interp_gain_u_rel > 0) {
-      const auto s_gain =
-          sensitivity(bc, r.ratio, [](BridgeConfig& c, double h) { c.channel_match *= 1 + h; });
-      if (config.channel_gain_u_rel > 0)
-        r.z.type_b.push_back({"channel_match_gain", s_gain, config.channel_gain_u_rel});
-      if (config.channel_interp_gain_u_rel > 0)
-        r.z.type_b.push_back({"interpolation_gain", s_gain, config.channel_interp_gain_u_rel});
-    }
-    if (config.channel_phase_u_rad > 0 || config.channel_interp_phase_u_rad > 0) {
-      const auto s_phase = sensitivity(
-          bc, r.ratio, [](BridgeConfig& c, double h) { c.channel_match *= std::polar(1.0, h); });
-      if (config.channel_phase_u_rad > 0)
-        r.z.type_b.push_back({"channel_match_phase", s_phase, config.channel_phase_u_rad});
-      if (config.channel_interp_phase_u_rad > 0)
-        r.z.type_b.push_back({"interpolation_phase", s_phase, config.channel_interp_phase_u_rad});
-    }
-
-    update_derived(r, config.force_kind);
-
-    const auto sa = block_spread(used(blocks.a));
-    const auto sb = block_spread(used(blocks.b));
-    r.level_a = std::abs(sa.mean);
-    r.level_b = std::abs(sb.mean);
-    r.snr_a_db = sa.snr_db;
-    r.snr_b_db = sb.snr_db;
-    if (config.volts_per_fs > 0) {
-      const cplx v_part = config.bridge.layout == Layout::part_low ? sb.mean : sa.mean - sb.mean;
-      r.v_part_rms = std::abs(v_part) * config.volts_per_fs / std::numbers::sqrt2;
-      r.i_part_rms = r.v_part_rms / std::max(r.values.mag_ohm, 1e-300);
-    }
+    ToneReading done = reading_from_blocks(blocks.a, blocks.b, freq, config);
+    done.coherent = r.coherent;
+    done.window = r.window;
+    done.block_len = r.block_len;
+    done.blocks_total = r.blocks_total;
+    done.phase = r.phase;
+    r = std::move(done);
     result.readings.push_back(std::move(r));
   }
   std::sort(result.readings.begin(), result.readings.end(),
@@ -420,6 +307,136 @@ AnalysisResult analyze_recording(std::span<const double> a, std::span<const doub
     }
   }
   return result;
+}
+
+ToneReading reading_from_blocks(std::span<const cplx> block_a, std::span<const cplx> block_b,
+                                double freq, const AnalysisConfig& config) {
+  if (block_a.size() != block_b.size() || block_a.empty())
+    throw std::invalid_argument("reading_from_blocks: one or more blocks, as many for A as for B");
+  ToneReading r;
+  r.freq_hz = freq;
+  r.blocks_total = block_a.size();
+
+  // Per-block ratios: the settling check, the swapped-inputs check and the Type A of r.
+  std::vector<cplx> ratio(block_a.size());
+  for (std::size_t i = 0; i < ratio.size(); ++i)
+    ratio[i] = block_b[i] / block_a[i];
+  // For any passive part |V_B/V_A| < 1 in both layouts (|Z + Rref| > |Z| when Re Z >= 0),
+  // so node B reading well above node A means the inputs are the other way round. The
+  // margin leaves room for an uncalibrated gain mismatch (two inputs +-0.3 dB each).
+  const double corrected = std::abs(mean_of(ratio) / config.bridge.channel_match);
+  if (config.check_swapped && corrected > 1.10) {
+    throw AnalysisError("analysis.channels_swapped",
+                        "at " + fmt(freq, 6) + " Hz channel 2 reads " + fmt(corrected, 3) +
+                            " times channel 1, which no passive part can do",
+                        "node A seems to be on channel 2: pass --swap (or check the wiring)");
+  }
+  r.settle = check_settled(ratio, {});
+  const std::size_t first = r.settle.first;
+  const std::size_t last = std::max(r.settle.last, first);
+  r.blocks_used = last - first;
+  if (r.blocks_used == 0) {
+    r.settle.first = 0;
+    r.settle.last = ratio.size();
+    r.blocks_used = ratio.size();
+  }
+  const auto used = [&](std::span<const cplx> v) {
+    return std::span<const cplx>(v).subspan(r.settle.first, r.blocks_used);
+  };
+  BridgeConfig bridge = config.bridge;
+  if (config.input_load) bridge.input_impedance_ohm = config.input_load->at(freq);
+  std::vector<cplx> z_blocks;
+  try {
+    for (std::size_t i = r.settle.first; i < r.settle.first + r.blocks_used; ++i)
+      z_blocks.push_back(solve_bridge(bridge, block_a[i], block_b[i]));
+  } catch (const std::domain_error&) {
+    throw AnalysisError(
+        "analysis.bridge_singular",
+        "at " + fmt(freq, 6) + " Hz node B reads the same as " +
+            std::string(config.bridge.layout == Layout::part_low ? "node A" : "ground"),
+        config.bridge.layout == Layout::part_low
+            ? "the part is open or missing: check the connection"
+            : "the part is open or node B is shorted to ground: check the jig");
+  }
+  r.z = mean_with_type_a(z_blocks);
+  r.ratio = mean_of(used(ratio));
+  {
+    const auto spread = block_spread(used(ratio));
+    r.ratio_u_rel = spread.n > 1 ? spread.spread / std::sqrt(static_cast<double>(spread.n)) /
+                                       std::abs(spread.mean)
+                                 : 0.0;
+  }
+
+  // Type B inputs, by sensitivity of the bridge solution at the mean ratio.
+  const BridgeConfig& bc = bridge;
+  if (config.rref_tolerance_rel > 0) {
+    r.z.type_b.push_back(
+        {"rref_tolerance",
+         sensitivity(bc, r.ratio, [](BridgeConfig& c, double h) { c.rref_ohm *= 1 + h; }),
+         rectangular_u(config.rref_tolerance_rel), 1e9, true});
+  }
+  // Temperature: the same relative change of Rref as its tolerance, hence the same
+  // sensitivity; half-width tempco * span.
+  const double tempco_half_width = config.rref_tempco_ppm_per_k * 1e-6 * config.rref_temp_span_k;
+  if (tempco_half_width > 0) {
+    r.z.type_b.push_back(
+        {"rref_tempco",
+         sensitivity(bc, r.ratio, [](BridgeConfig& c, double h) { c.rref_ohm *= 1 + h; }),
+         rectangular_u(tempco_half_width)});
+  }
+  // Series inductance of Rref: a reactance j w L in series with it. The step is taken as a
+  // small reactance relative to |Rref| (h |Rref| ohm, i.e. h |Rref| / w henry), then scaled
+  // to ohm per henry.
+  if (config.rref_inductance_h > 0) {
+    const double w = 2 * std::numbers::pi * freq;
+    const double mag = std::abs(bc.rref_ohm);
+    r.z.type_b.push_back(
+        {"rref_reactance",
+         sensitivity(bc, r.ratio,
+                     [mag](BridgeConfig& c, double h) { c.rref_ohm += cplx(0, h * mag); }) *
+             (w / mag),
+         rectangular_u(config.rref_inductance_h)});
+  }
+  if (bc.input_impedance_ohm && config.input_impedance_u_rel > 0) {
+    r.z.type_b.push_back(
+        {"input_impedance",
+         sensitivity(bc, r.ratio,
+                     [](BridgeConfig& c, double h) { *c.input_impedance_ohm *= 1 + h; }),
+         config.input_impedance_u_rel});
+  }
+  // The channel match's own scatter and its interpolation between calibration
+  // frequencies move Z through the same two sensitivities (gain, phase of H).
+  if (config.channel_gain_u_rel > 0 || config.channel_interp_gain_u_rel > 0) {
+    const auto s_gain =
+        sensitivity(bc, r.ratio, [](BridgeConfig& c, double h) { c.channel_match *= 1 + h; });
+    if (config.channel_gain_u_rel > 0)
+      r.z.type_b.push_back({"channel_match_gain", s_gain, config.channel_gain_u_rel});
+    if (config.channel_interp_gain_u_rel > 0)
+      r.z.type_b.push_back({"interpolation_gain", s_gain, config.channel_interp_gain_u_rel});
+  }
+  if (config.channel_phase_u_rad > 0 || config.channel_interp_phase_u_rad > 0) {
+    const auto s_phase = sensitivity(
+        bc, r.ratio, [](BridgeConfig& c, double h) { c.channel_match *= std::polar(1.0, h); });
+    if (config.channel_phase_u_rad > 0)
+      r.z.type_b.push_back({"channel_match_phase", s_phase, config.channel_phase_u_rad});
+    if (config.channel_interp_phase_u_rad > 0)
+      r.z.type_b.push_back({"interpolation_phase", s_phase, config.channel_interp_phase_u_rad});
+  }
+
+  update_derived(r, config.force_kind);
+
+  const auto sa = block_spread(used(block_a));
+  const auto sb = block_spread(used(block_b));
+  r.level_a = std::abs(sa.mean);
+  r.level_b = std::abs(sb.mean);
+  r.snr_a_db = sa.snr_db;
+  r.snr_b_db = sb.snr_db;
+  if (config.volts_per_fs > 0) {
+    const cplx v_part = config.bridge.layout == Layout::part_low ? sb.mean : sa.mean - sb.mean;
+    r.v_part_rms = std::abs(v_part) * config.volts_per_fs / std::numbers::sqrt2;
+    r.i_part_rms = r.v_part_rms / std::max(r.values.mag_ohm, 1e-300);
+  }
+  return r;
 }
 
 void update_derived(ToneReading& r, std::optional<PartKind> force_kind) {

@@ -119,6 +119,17 @@ class AnalysisError : public std::runtime_error {
 /// part kind from r.z and r.freq_hz (after r.z was changed, e.g. by fixture compensation).
 void update_derived(ToneReading& r, std::optional<PartKind> force_kind);
 
+/// One tone's reading from its per-block complex amplitudes at node A and node B (e.g. the
+/// periods of a multisine, multisine.hpp): the settling check, bridge solution, Type A from
+/// the block spread and the Type B budget that analyze_recording gives each of its tones.
+/// config.bridge (channel match, input impedance) and the channel-match terms apply at this
+/// tone; tones_hz, window and target_blocks are not used. At least one block, as many for a
+/// as for b. Throws AnalysisError (analysis.channels_swapped, analysis.bridge_singular).
+/// Example: reading_from_blocks(a, b, 1000, config).z.value is Z at 1 kHz.
+ToneReading reading_from_blocks(std::span<const std::complex<double>> a,
+                                std::span<const std::complex<double>> b, double freq_hz,
+                                const AnalysisConfig& config);
+
 /// Analyses equal-length channels a (node A) and b (node B), samples in full-scale units.
 /// Throws AnalysisError (ids recording.*, analysis.*) or std::invalid_argument for a bad config.
 AnalysisResult analyze_recording(std::span<const double> a, std::span<const double> b,

@@ -32,11 +32,12 @@ SweepRecord need_sweep(const Store& store, std::int64_t id) {
 void add_sweep_routes(std::vector<Route>& r) {
   r.push_back(
       {"POST", "/api/v1/sweeps", Access::change,
-       "start a stepped-sine sweep; points are saved as they are measured, refined where sharp",
+       "start a sweep (stepped or multisine); points are saved as they are measured",
        [](ApiContext& ctx, const httplib::Request& req) {
-         const auto b = api::parse_body(
-             req.body, {"start_hz", "stop_hz", "points_per_decade", "level_fs", "duration_s",
-                        "refine", "target_u_pct", "label", "part_id", "role", "wait"});
+         const auto b =
+             api::parse_body(req.body, {"start_hz", "stop_hz", "points_per_decade", "level_fs",
+                                        "duration_s", "refine", "target_u_pct", "label", "part_id",
+                                        "role", "wait", "method", "periods"});
          SweepTask t;
          t.start_hz = api::opt_number(b, "start_hz").value_or(t.start_hz);
          t.stop_hz = api::opt_number(b, "stop_hz").value_or(t.stop_hz);
@@ -51,6 +52,13 @@ void add_sweep_routes(std::vector<Route>& r) {
          t.duration_s = api::opt_number(b, "duration_s");
          t.refine = api::opt_bool(b, "refine").value_or(true);
          t.target_u_pct = api::opt_number(b, "target_u_pct");
+         t.method = api::opt_text(b, "method").value_or(t.method);
+         if (auto p = api::opt_number(b, "periods")) {
+           if (*p != std::floor(*p)) {
+             throw Error("request.bad_type", "field 'periods' must be a whole number", "e.g. 6");
+           }
+           t.periods = static_cast<int>(std::clamp(*p, -1.0, 1e6));
+         }
          t.label = api::opt_text(b, "label").value_or("");
          if (t.label.size() > 200) {
            throw Error("request.out_of_range", "label is longer than 200 characters", "shorten it");

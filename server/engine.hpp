@@ -18,11 +18,13 @@
 #include <optional>
 #include <string>
 #include <thread>
+#include <utility>
 #include <vector>
 
 #include "server/audio_device.hpp"
 #include "server/engine_sink.hpp"
 #include "server/engine_tasks.hpp"
+#include "server/error_report.hpp"
 #include "server/live_settings.hpp"
 #include "server/store.hpp"
 
@@ -115,6 +117,13 @@ class Engine {
                              std::int64_t task_id, TaskInfo* info = nullptr);
   nlohmann::json run_watch(const WatchTask& t, const Settings& s, TaskInfo& info);
   nlohmann::json run_sweep(const SweepTask& t, const Settings& s, TaskInfo& info);
+  nlohmann::json run_multisine_sweep(const SweepTask& t, const Settings& s, TaskInfo& info);
+  /// The end of a sweep that stopped on `e`: "cancelled"/"interrupted"/"failed" and its error.
+  std::pair<std::string, nlohmann::json> sweep_stop(const ErrorInfo& e);
+  /// Publishes sweep.end; throws task.cancelled for a cancelled or interrupted sweep and the
+  /// sweep's error for a failed one.
+  void end_sweep(std::int64_t sweep_id, const std::string& status, const nlohmann::json& error,
+                 int points_saved);
   nlohmann::json run_calibration(const CalibrationTask& t, const Settings& s, TaskInfo& info);
   nlohmann::json run_bench_part(const BenchPartTask& t);
   nlohmann::json run_tone(const ToneTask& t, const Settings& s, TaskInfo& info);

@@ -1,11 +1,13 @@
 // The bodies of the engine's tasks: what one reading, a watch, a sweep, a calibration
 // step and a part change do with the device. Runs on the engine's thread only.
+#include <algorithm>
 #include <chrono>
 #include <cmath>
 #include <complex>
 #include <map>
 #include <numbers>
 #include <thread>
+#include <tuple>
 
 #include "dsp/part_spec.hpp"
 #include "dsp/sweep_refine.hpp"
@@ -15,6 +17,7 @@
 #include "server/engine.hpp"
 #include "server/error.hpp"
 #include "server/error_report.hpp"
+#include "server/multisine_sweep.hpp"
 #include "server/reading_budget.hpp"
 #include "server/reading_json.hpp"
 #include "server/simulated_card.hpp"
@@ -197,6 +200,7 @@ nlohmann::json Engine::run_watch(const WatchTask& t, const Settings& s, TaskInfo
 }
 
 nlohmann::json Engine::run_sweep(const SweepTask& t, const Settings& s, TaskInfo& info) {
+  if (t.method == "multisine") return run_multisine_sweep(t, s, info);
   rewire_bench(s);
   const auto planned = t.frequencies();
   info.total = static_cast<int>(planned.size());
@@ -299,39 +303,142 @@ nlohmann::json Engine::run_sweep(const SweepTask& t, const Settings& s, TaskInfo
         take_point(x);
     }
   } catch (...) {
-    const ErrorInfo e = describe_current_error();
-    bool stopping;
-    {
-      std::lock_guard lock(m_);
-      stopping = stopping_;
-    }
-    if (e.id == "task.cancelled") {
-      status = stopping ? "interrupted" : "cancelled";
-      end_error = stopping ? nlohmann::json{{"id", "sweep.interrupted"},
-                                            {"message", "the service was stopped during the sweep"},
-                                            {"hint", "start the sweep again"}}
-                           : nlohmann::json{{"id", "sweep.cancelled"},
-                                            {"message", "the sweep was cancelled"},
-                                            {"hint", ""}};
-    } else {
-      status = "failed";
-      end_error = error_json(e);
-    }
+    std::tie(status, end_error) = sweep_stop(describe_current_error());
   }
+  end_sweep(sweep_id, status, end_error, info.done);
+  return info.result;
+}
+
+std::pair<std::string, nlohmann::json> Engine::sweep_stop(const ErrorInfo& e) {
+  if (e.id != "task.cancelled") return {"failed", error_json(e)};
+  bool stopping;
+  {
+    std::lock_guard lock(m_);
+    stopping = stopping_;
+  }
+  if (stopping) {
+    return {"interrupted",
+            {{"id", "sweep.interrupted"},
+             {"message", "the service was stopped during the sweep"},
+             {"hint", "start the sweep again"}}};
+  }
+  return {"cancelled",
+          {{"id", "sweep.cancelled"}, {"message", "the sweep was cancelled"}, {"hint", ""}}};
+}
+
+nlohmann::json Engine::run_multisine_sweep(const SweepTask& t, const Settings& s, TaskInfo& info) {
+  rewire_bench(s);
+  auto base = request_from(s, std::nullopt, t.level_fs, std::nullopt);
+  base.cancel = &cancel_current_;
+  const auto design = plan_multisine(base, t.frequencies());
+  const std::size_t k = design.tones.size();
+  const double period_s = static_cast<double>(design.period_len) / base.stream.sample_rate_hz;
+  const auto periods = static_cast<std::size_t>(
+      t.periods
+          ? *t.periods
+          : std::clamp<long>(std::lround(t.duration_s.value_or(s.number("duration_s")) / period_s),
+                             2, 256));
+  // Each tone's own corrections, taken at its frequency (a level calibration sets the volts
+  // for all of them alike).
+  std::vector<Corrections> corr(k);
+  std::vector<MeasureRequest> reqs(k, base);
+  std::vector<std::optional<ChannelMatch>> matches(k);
+  std::vector<std::optional<dsp::FixtureStandards>> fixtures(k);
+  for (std::size_t i = 0; i < k; ++i) {
+    reqs[i].freq_hz = design.tones[i].freq_hz;
+    corr[i] = corrections_for(store_, device_id(), reqs[i], s, kReconnectHalfWidthOhm);
+    matches[i] = corr[i].match;
+    fixtures[i] = corr[i].fixture;
+  }
+  base.volts_per_fs = reqs.front().volts_per_fs;
+  base.level_calibrated = reqs.front().level_calibrated;
+
+  info.total = static_cast<int>(k);
+  EngineEvent begin{"sweep.begin",
+                    {{"task_id", info.id},
+                     {"params", to_json(TaskRequest{t})},
+                     {"points_planned", info.total},
+                     {"label", t.label}}};
+  if (t.part_id) begin.data["part_id"] = *t.part_id;
+  publish(begin);
+  const std::int64_t sweep_id = begin.data.value("sweep_id", std::int64_t{0});
+  info.result = {{"sweep_id", sweep_id}};
+  update_task(info);
+
+  // One capture: a cancel or a lost device during it leaves nothing to save, so the sweep
+  // is kept with no points; once it is in, every point is saved.
+  MultisineSweep sweep;
+  try {
+    sweep = measure_multisine(*device_, base, design, periods, matches, fixtures);
+  } catch (...) {
+    const auto [status, error] = sweep_stop(describe_current_error());
+    end_sweep(sweep_id, status, error, 0);  // throws for every status sweep_stop gives
+    return info.result;
+  }
+  nlohmann::json regions = nlohmann::json::array();
+  for (const auto& g : sweep.analysis.regions) {
+    regions.push_back({{"f_lo_hz", g.f_lo_hz},
+                       {"f_hi_hz", g.f_hi_hz},
+                       {"tones", g.tones},
+                       {"odd_db", g.odd_db_b},
+                       {"even_db", g.even_db_b},
+                       {"noise_db", g.noise_db_b},
+                       {"odd_db_node_a", g.odd_db_a},
+                       {"even_db_node_a", g.even_db_a}});
+  }
+  const nlohmann::json summary = {
+      {"crest_factor", sweep.design.crest_factor},
+      {"schroeder_crest_factor", sweep.design.schroeder_crest_factor},
+      {"peak_level_fs", sweep.level_fs},
+      {"period_s", period_s},
+      {"periods", periods},
+      {"settle_periods", multisine_settle_periods(sweep.design)},
+      {"audio_s", sweep.audio_s},
+      {"noise_floor_fs",
+       {{"node_a", sweep.analysis.noise_floor_a_fs}, {"node_b", sweep.analysis.noise_floor_b_fs}}},
+      {"nonlinearity_db", sweep.analysis.nonlinearity_db},
+      {"regions", regions}};
+  for (std::size_t i = 0; i < k; ++i) {
+    const double f = design.tones[i].freq_hz;
+    EngineEvent point{"sweep.point", {{"sweep_id", sweep_id}, {"index", i}, {"freq_hz", f}}};
+    if (sweep.errors[i]) {
+      point.data["error"] = to_json(*sweep.errors[i]);
+    } else {
+      auto j = reading_json(sweep.points[i], reqs[i], corr[i], s);
+      j["tone_level_fs"] = sweep.design.tones[i].amplitude_fs;
+      point.data["reading"] = j;
+    }
+    if (i == 0) point.data["multisine"] = summary;
+    publish(point);
+    info.done = static_cast<int>(i) + 1;
+  }
+  update_task(info);
+  info.result["multisine"] = summary;
+  EngineEvent end{"sweep.end",
+                  {{"sweep_id", sweep_id},
+                   {"status", "complete"},
+                   {"error", nullptr},
+                   {"points_saved", info.done},
+                   {"multisine", summary}}};
+  publish(end);
+  return info.result;
+}
+
+void Engine::end_sweep(std::int64_t sweep_id, const std::string& status,
+                       const nlohmann::json& error, int points_saved) {
   EngineEvent end{"sweep.end",
                   {{"sweep_id", sweep_id},
                    {"status", status},
-                   {"error", end_error},
-                   {"points_saved", info.done}}};
+                   {"error", error},
+                   {"points_saved", points_saved}}};
   publish(end);
   if (status == "cancelled" || status == "interrupted") {
     throw Error("task.cancelled", "the sweep was cancelled", "");
   }
   if (status == "failed") {
-    throw Error(end_error.value("id", "sweep.failed"), end_error.value("message", ""),
-                end_error.value("hint", ""));
+    throw Error(error.value("id", "sweep.failed"), error.value("message", ""),
+                error.value("hint", ""));
   }
-  return info.result;
 }
 
 nlohmann::json Engine::run_calibration(const CalibrationTask& t, const Settings& s,

@@ -102,6 +102,17 @@ void validate(const TaskRequest& t, const Settings& s) {
     lim.duration(sw->duration_s);
     if (sw->target_u_pct)
       in_range("target_u_pct", *sw->target_u_pct, 0.001, 10, "e.g. 0.05 for 0.05 %");
+    if (sw->method != "stepped" && sw->method != "multisine") {
+      throw Error("request.bad_value", "no sweep method named '" + sw->method + "'",
+                  "use stepped (one tone after another) or multisine (all at once)");
+    }
+    if (sw->periods) {
+      if (sw->method != "multisine") {
+        throw Error("request.bad_value", "periods applies to multisine sweeps only",
+                    "leave out periods, or give method multisine");
+      }
+      in_range("periods", *sw->periods, 2, 256, "analysed multisine periods, e.g. 6");
+    }
   }
   if (const auto* c = std::get_if<CalibrationTask>(&t)) {
     if (c->kind != "channel_match" && c->kind != "open" && c->kind != "short" &&
@@ -186,6 +197,8 @@ nlohmann::json to_json(const TaskRequest& t) {
     put(j, "duration_s", sw->duration_s);
     j["refine"] = sw->refine;
     put(j, "target_u_pct", sw->target_u_pct);
+    j["method"] = sw->method;
+    if (sw->periods) j["periods"] = *sw->periods;
     if (sw->part_id) j["part_id"] = *sw->part_id;
     if (sw->part_id) j["role"] = sw->role;
   }

@@ -39,7 +39,10 @@ struct WatchTask {
   double per_s = 1;
 };
 
-/// Stepped sine, log spaced from start_hz to stop_hz inclusive.
+/// A sweep, log spaced from start_hz to stop_hz inclusive. method "stepped": one reading
+/// per frequency, duration_s each. method "multisine": all frequencies at once in one
+/// capture (multisine_sweep.hpp) of `periods` analysed periods (2 .. 256), or as many as
+/// fill duration_s (at least 2); level_fs is then the peak of the whole multisine.
 struct SweepTask {
   double start_hz = 100, stop_hz = 10000;
   int points_per_decade = 10;
@@ -48,6 +51,8 @@ struct SweepTask {
   bool refine = true;
   /// Take a point again, longer, when its Type A (standard, relative, in %) is above this.
   std::optional<double> target_u_pct;
+  std::string method = "stepped";
+  std::optional<int> periods;  ///< multisine only
   std::string label;
   std::optional<std::int64_t> part_id;
   /// With part_id: "original" or "replacement" (PartRole in store.hpp).

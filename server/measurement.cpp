@@ -256,6 +256,18 @@ double pre_listen(AudioDevice& device, const StreamSpec& spec, double seconds,
   return listen(device, spec, seconds, cancel).peak;
 }
 
+Capture pre_listen_capture(AudioDevice& device, const StreamSpec& spec, double seconds,
+                           const std::atomic<bool>* cancel, double& peak) {
+  auto l = listen(device, spec, seconds, cancel);
+  peak = l.peak;
+  return std::move(l.cap);
+}
+
+void add_mains_hum_terms(dsp::ToneReading& reading, const Capture& silent,
+                         const MeasureRequest& request) {
+  add_hum_terms(reading, silent, request);
+}
+
 ChannelMatch measure_channel_match(AudioDevice& device, const MeasureRequest& request) {
   // The part stays on the jig during this step, so listen for a charge before playing.
   pre_listen(device, request.stream, 0.1, request.cancel);
@@ -314,15 +326,8 @@ MeasureResult measure_once(AudioDevice& device, const MeasureRequest& request,
   check_silence(out, heard.cap, request);
   check_frequency(out, request);
 
-  auto config = analysis_config(request, request.freq_hz);
-  if (match) {
-    config.bridge.channel_match = match->h;
-    config.channel_gain_u_rel = match->u_gain_rel;
-    config.channel_phase_u_rad = match->u_phase_rad;
-    config.channel_interp_gain_u_rel = match->interp_gain_u_rel;
-    config.channel_interp_phase_u_rad = match->interp_phase_u_rad;
-    out.channel_match = match;
-  }
+  auto config = analysis_config_for(request, request.freq_hz, match);
+  out.channel_match = match;
   dsp::LevelChoice level{request.level_fs, dsp::LevelLimit::requested};
   if (request.level_fs == 0 || cap_vrms)
     level = choose_level(device, request, config, cap_vrms.value_or(0));
@@ -380,6 +385,19 @@ MeasureResult measure_once(AudioDevice& device, const MeasureRequest& request,
   }
   out.advice = advise(out.reading, request);
   return out;
+}
+
+dsp::AnalysisConfig analysis_config_for(const MeasureRequest& request, double freq_hz,
+                                        const std::optional<ChannelMatch>& match) {
+  auto config = analysis_config(request, freq_hz);
+  if (match) {
+    config.bridge.channel_match = match->h;
+    config.channel_gain_u_rel = match->u_gain_rel;
+    config.channel_phase_u_rad = match->u_phase_rad;
+    config.channel_interp_gain_u_rel = match->interp_gain_u_rel;
+    config.channel_interp_phase_u_rad = match->interp_phase_u_rad;
+  }
+  return config;
 }
 
 Advice advise(const dsp::ToneReading& reading, const MeasureRequest& request) {

@@ -24,6 +24,7 @@
 #include "dsp/recording_analysis.hpp"
 #include "dsp/test_level.hpp"
 #include "server/audio_device.hpp"
+#include "server/capture.hpp"
 
 namespace tb {
 
@@ -113,6 +114,15 @@ struct MeasureResult {
 double pre_listen(AudioDevice& device, const StreamSpec& spec, double seconds,
                   const std::atomic<bool>* cancel = nullptr);
 
+/// pre_listen that also hands back what it heard (for the mains-hum terms); sets `peak`.
+Capture pre_listen_capture(AudioDevice& device, const StreamSpec& spec, double seconds,
+                           const std::atomic<bool>* cancel, double& peak);
+
+/// The mains-hum terms (mains_hum_real, mains_hum_imag) that measure_once adds to a reading
+/// whose tone lies near a mains harmonic, from what the silent capture held there.
+void add_mains_hum_terms(dsp::ToneReading& reading, const Capture& silent,
+                         const MeasureRequest& request);
+
 /// Channel match at one frequency from a capture with both inputs on node A (listens for
 /// a charged part first, as measure_once does).
 ChannelMatch measure_channel_match(AudioDevice& device, const MeasureRequest& request);
@@ -146,6 +156,11 @@ struct RawCapture {
   double pre_listen_peak_fs = 0;  ///< largest input sample before the tone started
 };
 RawCapture capture_uncorrected(AudioDevice& device, const MeasureRequest& request);
+
+/// The analysis settings a reading at freq_hz uses (layout, Rref and its budget terms, level),
+/// with `match` divided out and its uncertainties in the budget when given.
+dsp::AnalysisConfig analysis_config_for(const MeasureRequest& request, double freq_hz,
+                                        const std::optional<ChannelMatch>& match);
 
 /// The Rref of request.rref_set_ohm (or the present one) and the layout with the lowest
 /// predicted uncertainty for this reading's impedance (dsp/setup_advice.hpp), from the
