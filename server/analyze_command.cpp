@@ -10,13 +10,15 @@
 #include "server/error_report.hpp"
 #include "server/reading_json.hpp"
 #include "server/reading_text.hpp"
+#include "server/sweep_file.hpp"
+#include "server/sweep_fit.hpp"
 #include "server/wav_file.hpp"
 
 namespace tb {
 
 namespace {
 
-const std::array<cli::OptionSpec, 14> kOptions{{
+const std::array<cli::OptionSpec, 17> kOptions{{
     {"rref", "OHMS", "reference resistor, e.g. 1k or 10 (required)"},
     {"rref-tol", "PERCENT", "reference resistor tolerance, default 1 (%)"},
     {"layout", "part-low|part-high", "jig layout, default part-low (Rref A-B, part B-ground)"},
@@ -30,11 +32,78 @@ const std::array<cli::OptionSpec, 14> kOptions{{
     {"min-tone-db", "DB", "ignore tones weaker than the strongest by more, default -40"},
     {"kind", "C|L|R", "report as this part type instead of detecting it"},
     {"blocks", "N", "analysis blocks to aim for, default 16"},
+    {"family", "capacitor|inductor|resistor|driver",
+     "sweep files: the part family to fit, default: every model"},
+    {"model", "NAME", "sweep files: fit this model only (docs/fits.md), e.g. c_esr_esl"},
+    {"mounting", "TEXT", "sweep files, drivers: how the driver was held, default \"free air\""},
     {"json", "", "print one JSON object instead of text"},
     {"help", "", "show this help"},
 }};
 
-constexpr const char* kUsage = "tonebridge analyze RECORDING.wav --rref OHMS [options]";
+constexpr const char* kUsage =
+    "tonebridge analyze RECORDING.wav --rref OHMS [options]\n"
+    "       tonebridge analyze SWEEP.csv|SWEEP.json [--family F] [--model M] [--json]";
+
+std::string with_u(double v, double u, const std::string& unit) {
+  return format_si(v, unit, 5) + " ± " + format_si(2 * u, unit, 2);
+}
+
+// A saved sweep (this program's export, or a CSV from elsewhere): the equivalent-circuit
+// fit, and for a driver its Thiele/Small parameters.
+int fit_sweep_file(const cli::ParsedArgs& args, const std::string& path, std::ostream& out) {
+  const auto file = read_sweep_file(path);
+  FitRequest req;
+  req.family = parse_family(args.get("family").value_or("auto"));
+  if (auto m = args.get("model")) {
+    req.model = dsp::parse_fit_model(*m);
+    if (!req.model)
+      throw Error("cli.bad_value", "no fit model '" + *m + "'",
+                  "leave out --model to choose by fit quality; docs/fits.md lists the models");
+  }
+  if (auto m = args.get("mounting")) req.conditions.mounting = *m;
+  auto j = fit_json(file.input, req);
+  j["file"] = path;
+  j["uncertainties_given"] = file.uncertainties_given;
+  if (args.has("json")) {
+    out << j.dump(2) << "\n";
+    return 0;
+  }
+  const auto range = j.at("frequency_range_hz");
+  out << "sweep      " << path << "  (" << j.at("points_used").get<int>() << " points, "
+      << format_si(range[0].get<double>(), "Hz", 3) << " to "
+      << format_si(range[1].get<double>(), "Hz", 3) << ", " << j.at("points_skipped").get<int>()
+      << " skipped)\n"
+      << "model      " << j.at("model").get<std::string>() << ": "
+      << j.at("description").get<std::string>() << "\n";
+  for (const auto* group : {"params", "derived"}) {
+    for (const auto& p : j.at(group)) {
+      out << "  " << p.at("name").get<std::string>() << " = "
+          << with_u(
+                 p.at("value").get<double>(), p.at("u").get<double>(),
+                 p.at("unit").get<std::string>() == "ohm" ? "Ω" : p.at("unit").get<std::string>())
+          << "\n";
+    }
+  }
+  if (!j.at("srf").is_null()) {
+    out << "  self-resonance = "
+        << with_u(j["srf"].at("value").get<double>(), j["srf"].at("u").get<double>(), "Hz") << "\n";
+  }
+  out << "fit        reduced chi-squared " << j.at("chi2_reduced").get<double>() << "\n";
+  if (j.contains("driver")) {
+    const auto& d = j["driver"].at("from_fit");
+    out << "driver     fs " << format_si(d.at("fs_hz").get<double>(), "Hz", 4) << ", Qms "
+        << d.at("qms").get<double>() << ", Qes " << d.at("qes").get<double>() << ", Qts "
+        << d.at("qts").get<double>() << ", Re " << format_si(d.at("re_ohm").get<double>(), "Ω", 4)
+        << " (" << j["driver"]["conditions"].at("mounting").get<std::string>() << ")\n";
+  }
+  for (const auto& n : j.at("notes"))
+    out << "note: " << n.get<std::string>() << "\n";
+  if (!file.uncertainties_given)
+    out << "note: the file has no uncertainty columns; the fit's uncertainties come from the "
+           "scatter of the points about the model\n";
+  out << "uncertainties are expanded (k = 2)\n";
+  return 0;
+}
 
 dsp::AnalysisConfig build_config(const cli::ParsedArgs& args, double sample_rate_hz) {
   dsp::AnalysisConfig config;
@@ -130,7 +199,8 @@ int run_analyze(std::span<const std::string> argv, std::ostream& out, std::ostre
     const auto args = cli::parse_args(argv, kOptions, "analyze");
     if (args.has("help")) {
       out << "Analyse a stereo recording of the jig: channel 1 = node A (generator side),\n"
-             "channel 2 = node B. Finds the tones and the steady part by itself.\n\n"
+             "channel 2 = node B. Finds the tones and the steady part by itself.\n"
+             "Given a saved sweep (.csv or .json) instead, fits its equivalent circuit.\n\n"
           << cli::format_help(kUsage, kOptions);
       return 0;
     }
@@ -140,6 +210,7 @@ int run_analyze(std::span<const std::string> argv, std::ostream& out, std::ostre
                   std::string("usage: ") + kUsage);
     }
     const std::string& path = args.positional[0];
+    if (is_sweep_file(path)) return fit_sweep_file(args, path, out);
     Recording rec = read_recording(path);
     if (rec.channels < 2) {
       throw Error("file.mono", path + " has one channel; the jig needs two (node A and node B)",

@@ -208,6 +208,17 @@ void check_frequency(MeasureResult& out, const MeasureRequest& r) {
   // Up to the 8th harmonic of 50 Hz mains: where hum is strong enough to matter (the
   // usual 100/120 Hz choice above all). Higher harmonics are weak, and warning at 1 kHz
   // (the 20th of 50 Hz), the usual test frequency, would cry wolf on every reading.
+  // Above 0.4 of the rate the card's anti-alias and reconstruction filters roll off and
+  // may differ between the inputs: a channel match at that frequency is what keeps the
+  // reading honest.
+  if (f > 0.4 * r.stream.sample_rate_hz) {
+    note(out, "signal.near_nyquist",
+         "the test frequency " + num(f, 5) + " Hz is above 0.4 of the " +
+             num(r.stream.sample_rate_hz, 6) +
+             " Hz sample rate, where the card's anti-alias filters roll off",
+         "use a sample rate of 96 kHz for frequencies above about 15 kHz, or take the channel "
+         "match at this frequency");
+  }
   const auto m = dsp::check_mains_proximity(f, r.mains_hz, bin, 2, 400);
   if (!m.near) return;
   note(out, "signal.near_mains",
