@@ -207,7 +207,7 @@ int run_analyze(std::span<const std::string> argv, std::ostream& out, std::ostre
     if (args.positional.size() != 1) {
       throw Error("cli.usage",
                   args.positional.empty() ? "no recording given" : "more than one recording given",
-                  std::string("usage: ") + kUsage);
+                  "usage: tonebridge analyze RECORDING.wav --rref OHMS, or analyze SWEEP.csv");
     }
     const std::string& path = args.positional[0];
     if (is_sweep_file(path)) return fit_sweep_file(args, path, out);
