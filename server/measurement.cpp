@@ -317,6 +317,12 @@ double played_frequency_hz(const MeasureRequest& request) {
   return plan_for(request).tones.at(0).achieved_hz;
 }
 
+void add_signal_notices(MeasureResult& out, const Capture* silent, const MeasureRequest& request) {
+  if (silent) check_silence(out, *silent, request);
+  check_frequency(out, request);
+  check_strength(out, out.reading);
+}
+
 MeasureResult measure_once(AudioDevice& device, const MeasureRequest& request,
                            const std::optional<ChannelMatch>& match,
                            const std::optional<dsp::FixtureStandards>& fixture) {

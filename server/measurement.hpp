@@ -127,6 +127,12 @@ void add_mains_hum_terms(dsp::ToneReading& reading, const Capture& silent,
 /// a charged part first, as measure_once does).
 ChannelMatch measure_channel_match(AudioDevice& device, const MeasureRequest& request);
 
+/// The signal notices of one reading (ids in docs/errors.md): from the pre-listen capture
+/// (output silent) input.dc_offset and signal.hum, when `silent` is given; from the request's
+/// frequency signal.near_mains and signal.near_nyquist; from out.reading signal.weak. For
+/// paths that do not go through measure_once (the multisine sweep's tones).
+void add_signal_notices(MeasureResult& out, const Capture* silent, const MeasureRequest& request);
+
 /// The frequency a reading of this request really plays: the requested one moved to the
 /// nearest bin of its analysis block (10 Hz steps from 40 Hz up at 48 kHz, finer below).
 /// Throws as measure_once does for a bad frequency, level or duration.

@@ -115,6 +115,7 @@ MultisineSweep measure_multisine(AudioDevice& device, const MeasureRequest& requ
     r.pre_listen_peak_fs = listened;
     r.level_fs = out.design.tones[i].amplitude_fs;
     add_mains_hum_terms(r.reading, silent, req);
+    add_signal_notices(r, &silent, req);
     if (!fixtures.empty() && fixtures[i]) {
       r.reading.z = dsp::compensate(r.reading.z, *fixtures[i]);
       dsp::update_derived(r.reading, request.force_kind);

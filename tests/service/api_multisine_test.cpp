@@ -38,9 +38,11 @@ TEST_CASE("a multisine sweep reads a known capacitor within its uncertainty", "[
   for (int i = 0; i <= 8; ++i)
     freqs.push_back(100 * std::pow(10.0, i / 4.0));
   for (const char* kind : {"channel_match", "open", "short"}) {
-    REQUIRE(svc.post("/api/v1/calibrations",
-                     {{"kind", kind}, {"freqs_hz", freqs}, {"duration_s", 0.2}, {"wait", true}})
-                .status == 201);
+    const auto r =
+        svc.post("/api/v1/calibrations",
+                 {{"kind", kind}, {"freqs_hz", freqs}, {"duration_s", 0.2}, {"wait", true}});
+    INFO(r.body);
+    REQUIRE(r.status == 201);
   }
   const auto ms = sweep(svc, {{"method", "multisine"}, {"periods", 8}, {"level_fs", 0.5}});
   const auto stepped = sweep(svc, {{"duration_s", 0.2}, {"level_fs", 0.5}});
@@ -94,7 +96,13 @@ TEST_CASE("a multisine sweep reads a known capacitor within its uncertainty", "[
     const double tone = p.at("reading").at("tone_level_fs").get<double>();
     CHECK(tone > 0.01);
     CHECK(tone < 0.5);
-    CHECK(p.at("reading").at("warnings").empty());
+    // The tones get the stepped readings' signal notices; on this quiet bench only the one on
+    // 100 Hz, a harmonic of the 50 Hz mains, has one.
+    INFO(p.at("reading").at("warnings").dump());
+    for (const auto& w : p.at("reading").at("warnings")) {
+      CHECK(w.at("id") == "signal.near_mains");
+      CHECK(p.at("reading").at("freq_hz").get<double>() < 410);
+    }
   }
 }
 
