@@ -141,10 +141,38 @@ std::string normalise(std::string_view text) {
     if (static_cast<unsigned char>(c) >= 0x80)
       fail("marking.unreadable",
            cat(quoted(text), " holds a character that is not part of a marking: ", kHowToWrite));
-    out += (c == '\t') ? ' ' : c;
+    // "100nF/63V", "2200uF/25V": a slash before the voltage separates like a space (the
+    // slash of "+80/-20%" is followed by a sign and stays).
+    const bool slash_before_number =
+        c == '/' && i + 1 < text.size() && std::isdigit(static_cast<unsigned char>(text[i + 1]));
+    out += (c == '\t' || slash_before_number) ? ' ' : c;
     ++i;
   }
   return out;
+}
+
+// Without a kind, an RKM code still says what it most likely is (IEC 60062): p, n, u as the
+// decimal point are capacitor letters ("4n7", "100n", "u47"); R, K, M, G with digits after
+// them are resistor letters ("4R7", "1k5", "R22", "2M2"), and so is a trailing R ("10R").
+// A trailing K or M alone ("47K", "103M") stays ambiguous: on a capacitor it is a tolerance.
+// The reply states the kind it read, so a small ceramic's "2R2" read as 2.2 ohm shows.
+Kind infer_kind(const std::string& word) {
+  const auto letter = word.find_first_not_of("0123456789.,");
+  if (letter == std::string::npos) return Kind::unknown;
+  const char c = word[letter];
+  const std::string rest = word.substr(letter + 1);
+  const bool digits_after = !rest.empty() && std::isdigit(static_cast<unsigned char>(rest[0]));
+  const bool only_tolerance_after =
+      rest.empty() || (rest.size() == 1 && std::isalpha(static_cast<unsigned char>(rest[0])));
+  if ((c == 'p' || c == 'n' || c == 'u') && (digits_after || only_tolerance_after) &&
+      (rest.empty() || std::isdigit(static_cast<unsigned char>(rest[0])) ||
+       std::string("FGJKMZBCD").find(rest[0]) != std::string::npos))
+    return Kind::capacitor;
+  if ((c == 'R' || c == 'r') && (digits_after || rest.empty() || letter == 0))
+    return Kind::resistor;
+  if ((c == 'k' || c == 'K' || c == 'M' || c == 'G') && digits_after && letter > 0)
+    return Kind::resistor;
+  return Kind::unknown;
 }
 
 std::vector<std::string> split_words(const std::string& s) {
@@ -607,6 +635,7 @@ PartMarking parse_marking(std::string_view text, std::optional<PartKind> part_ki
   const std::string norm = normalise(text);
   std::vector<std::string> words = split_words(norm);
   if (words.empty()) fail("marking.empty", cat("the marking is empty: ", kHowToWrite));
+  if (kind == Kind::unknown) kind = infer_kind(words[0]);
   // Glue what people type with a space: "4.7 uF", "5 %", "100 V", "± 5%".
   if (words.size() >= 2 && words[0].find_first_not_of("0123456789.,") == std::string::npos &&
       explicit_unit(words[1], text)) {

@@ -192,12 +192,24 @@ TEST_CASE("Z and the B C D letters give their limits", "[marking]") {
   check_relative(reads("4u7 M", kCap, 4.7e-6), 0.20, 0.20);
 }
 
-TEST_CASE("an unknown part kind is taken from the unit only", "[marking]") {
+TEST_CASE("an unknown part kind is taken from the unit or the RKM letter", "[marking]") {
   CHECK(parse_marking("4.7uF", std::nullopt).kind == kCap);
   CHECK(parse_marking("1.5mH", std::nullopt).kind == kInd);
   CHECK(parse_marking("8.2 ohm", std::nullopt).kind == kRes);
-  refused("4n7", std::nullopt, "marking.ambiguous", "capacitor, inductor or resistor");
+  // IEC 60062:2016 RKM letters: p, n, u mark capacitance; R, K, M, G resistance.
+  CHECK(parse_marking("4n7", std::nullopt).nominal == Approx(4.7e-9));
+  CHECK(parse_marking("100n", std::nullopt).kind == kCap);
+  CHECK(parse_marking("4n7J", std::nullopt).tol_minus_rel == Approx(0.05));
+  CHECK(parse_marking("1k5 1%", std::nullopt).nominal == Approx(1500));
+  CHECK(parse_marking("4R7", std::nullopt).kind == kRes);
+  CHECK(parse_marking("10R", std::nullopt).nominal == Approx(10));
+  CHECK(parse_marking("R22", std::nullopt).nominal == Approx(0.22));
+  // As typed from a can: a slash before the voltage.
+  CHECK(parse_marking("2200uF/25V", std::nullopt).rated_voltage_v == Approx(25));
+  CHECK(parse_marking("100nF/63V", std::nullopt).nominal == Approx(100e-9));
+  refused("47K", std::nullopt, "marking.ambiguous", "capacitor, inductor or resistor");
   refused("104", std::nullopt, "marking.ambiguous", "capacitor, inductor or resistor");
+  refused("103M", std::nullopt, "marking.ambiguous", "capacitor, inductor or resistor");
 }
 
 TEST_CASE("bad markings are refused with what to type", "[marking]") {
