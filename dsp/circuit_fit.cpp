@@ -634,9 +634,17 @@ FitSelection fit_best(const Sweep& sweep, std::optional<FitFamily> family) {
     FitCandidate c;
     c.model = m;
     try {
-      fits.push_back(fit_model(sweep, m));
+      CircuitFit fit = fit_model(sweep, m);
+      // An element the data cannot pin down (u above its value: a driver's motional branch
+      // fitted to a plain resistor) makes the model a description of noise, not of the part.
+      for (const FitValue& v : fit.params) {
+        if (!(v.u < std::abs(v.value)))
+          throw FitError("fit.undetermined", "the sweep does not determine " + v.name,
+                         "use a simpler model");
+      }
       c.ok = true;
-      c.chi2_reduced = fits.back()->chi2_reduced;
+      c.chi2_reduced = fit.chi2_reduced;
+      fits.push_back(std::move(fit));
     } catch (const FitError& e) {
       fits.emplace_back();
       c.error_id = e.id();

@@ -56,6 +56,8 @@
 //   fit.no_convergence    Levenberg-Marquardt stopped without meeting its tolerances
 //   fit.absurd_result     a value ran off by more than 10^6 from its start, or the
 //                         parameters cannot be told apart (singular covariance)
+//   fit.undetermined      fit_best, per candidate: a parameter's u exceeds its value (the
+//                         sweep cannot tell it; the candidate is not chosen)
 //   fit.no_model          fit_best: no candidate gave a usable fit
 //
 // Example:

@@ -109,10 +109,31 @@ FitInput fit_input_from_columns(const nlohmann::json& columns) {
 
 FitInput fit_input_from_points(const std::vector<nlohmann::json>& bodies) {
   Collector c;
+  // A point without a correction most of the sweep has (above the calibration grid, say)
+  // is off by the uncorrected channel mismatch, which its own U does not hold: near the
+  // Nyquist limit that can be tens of per cent. Such points stay out of the fit.
+  auto used = [](const nlohmann::json& r, const char* kind) {
+    const auto corr = r.value("corrections", nlohmann::json::object());
+    return corr.is_object() && corr.contains(kind);
+  };
+  std::size_t with_match = 0, with_open = 0, readings = 0;
+  for (const auto& b : bodies) {
+    const auto r = b.value("reading", nlohmann::json());
+    if (!r.is_object()) continue;
+    ++readings;
+    with_match += used(r, "channel_match") ? 1 : 0;
+    with_open += used(r, "open") ? 1 : 0;
+  }
+  const bool need_match = 2 * with_match > readings, need_open = 2 * with_open > readings;
   for (const auto& b : bodies) {
     const auto r = b.value("reading", nlohmann::json());
     if (!r.is_object()) {
       ++c.in.skipped;
+      continue;
+    }
+    if ((need_match && !used(r, "channel_match")) || (need_open && !used(r, "open"))) {
+      ++c.in.skipped;
+      ++c.in.uncorrected;
       continue;
     }
     const auto u = r.value("uncertainty", nlohmann::json::object());
@@ -192,6 +213,7 @@ nlohmann::json fit_json(const FitInput& in, const FitRequest& request) {
                       {"candidates", candidates},
                       {"points_used", s.freq_hz.size()},
                       {"points_skipped", in.skipped},
+                      {"points_uncorrected", in.uncorrected},
                       {"frequency_range_hz", {lo, hi}},
                       {"curve", curve_json(fit, lo, hi)}};
   for (const auto& p : fit.params)
@@ -221,6 +243,10 @@ nlohmann::json fit_json(const FitInput& in, const FitRequest& request) {
         "datasheet ESR is often given at 100 kHz, beyond a sound card (it stops near 0.4 of "
         "the sample rate); compare at the frequencies measured here");
   }
+  if (in.uncorrected > 0)
+    notes.push_back(std::to_string(in.uncorrected) +
+                    " point(s) left out: they lack a correction the rest of the sweep has (often "
+                    "above the calibration grid, which stops at 0.4 of the sample rate)");
   if (fit.u_scaled)
     notes.push_back(
         "the points scatter about the model more than their uncertainty says; the "

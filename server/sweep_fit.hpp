@@ -22,6 +22,9 @@ namespace tb {
 struct FitInput {
   dsp::Sweep sweep;
   int skipped = 0;
+  /// Of the skipped: points without a correction (channel match, open/short) that most of the
+  /// sweep's points have, e.g. above the calibration grid.
+  int uncorrected = 0;
   double drive_v_rms = 0;  ///< the largest test voltage of the points (0 when not known)
 };
 
@@ -30,7 +33,8 @@ struct FitInput {
 /// with k = 2 (the reading's coverage factor is used when a point carries it).
 FitInput fit_input_from_columns(const nlohmann::json& columns);
 
-/// From the points of a sweep as stored (bodies with "reading"); uses each reading's k.
+/// From the points of a sweep as stored (bodies with "reading"); uses each reading's k, and
+/// leaves out points lacking a correction most points have (counted in `uncorrected`).
 FitInput fit_input_from_points(const std::vector<nlohmann::json>& point_bodies);
 
 struct FitRequest {
