@@ -107,7 +107,7 @@ void add_job_routes(std::vector<Route>& r) {
                  auto j = job_from(api::parse_body(req.body, kJobFields), {});
                  if (j.make.empty() && j.model.empty()) {
                    throw Error("request.missing_field", "a job needs a make or a model",
-                               "e.g. {\"make\":\"Quillon Audio\",\"model\":\"QA-40\"}");
+                               "e.g. {\"make\":\"Quillon Audio\",\"model\":\"QI-260\"}");
                  }
                  j.id = ctx.store.add_job(j);
                  const auto saved = need_job(ctx.store, j.id);

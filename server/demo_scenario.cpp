@@ -11,7 +11,7 @@ const std::vector<JobRecord>& demo_jobs() {
       {0, "", "Marlowe Acoustics", "Tessera 3 (three-way floorstander, left cabinet)", "LLA-26-130",
        "Customer reports a dull top end after a house move. Check the tweeter high-pass "
        "capacitor and the mid-range coil before re-using them."},
-      {0, "", "Quillon Audio", "QA-40 integrated amplifier", "LLA-26-131",
+      {0, "", "Quillon Audio", "QI-260 integrated amplifier", "LLA-26-131",
        "Hum at idle and a crackle on the left channel. Discharge the supply first; check the "
        "main filter capacitor and the left coupling capacitor."},
   };

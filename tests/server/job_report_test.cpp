@@ -33,7 +33,7 @@ tb::JobReport sample_report() {
   r.job = {7,
            "2026-12-01T08:00:00.000Z",
            "Quillon Audio",
-           "QA-40 \"Mk II\", black",
+           "QI-260 \"Mk II\", black",
            "LLA-26-131",
            "Hum at idle.\n<script>alert(1)</script> & more"};
   tb::PartHistory c41;
@@ -178,7 +178,7 @@ TEST_CASE("job_report: the HTML page escapes every text a user typed", "[job_rep
   const auto html = tb::job_report_html(report);
   CHECK_FALSE(has(html, "<script"));
   CHECK(has(html, "&lt;script&gt;alert(1)&lt;/script&gt; &amp; more"));
-  CHECK(has(html, "QA-40 &quot;Mk II&quot;, black"));
+  CHECK(has(html, "QI-260 &quot;Mk II&quot;, black"));
   CHECK(has(html, "supply &quot;filter&quot;"));
   CHECK(has(html, "ESR &lt;0.5 ohm&gt; expected"));
   CHECK(has(html, "L2 new &lt;coil&gt;"));

@@ -611,7 +611,7 @@ void make_version_1_store(const fs::path& db) {
   conn.reset();
   run_sql(db,
           "INSERT INTO jobs(created_at, make, model, serial, notes) "
-          "VALUES ('2026-01-05T09:00:00.000Z', 'Quillon Audio', 'QA-40', 'LLA-26-099', '');"
+          "VALUES ('2026-01-05T09:00:00.000Z', 'Quillon Audio', 'QI-260', 'LLA-26-099', '');"
           "INSERT INTO parts(job_id, designator, marking, notes, created_at) "
           "VALUES (1, 'C41', '470 uF 35 V', '', '2026-01-05T09:01:00.000Z');"
           "INSERT INTO readings(taken_at, origin, part_id, body) "

@@ -149,7 +149,7 @@ TEST_CASE("a sweep is saved point by point, served as columns and exported", "[s
 TEST_CASE("repair jobs and parts are created, changed and refused when they clash", "[service]") {
   ServiceProcess svc;
   const auto job = svc.post(
-      "/api/v1/jobs", {{"make", "Quillon Audio"}, {"model", "QA-40"}, {"serial", "LLA-26-140"}});
+      "/api/v1/jobs", {{"make", "Quillon Audio"}, {"model", "QI-260"}, {"serial", "LLA-26-140"}});
   REQUIRE(job.status == 201);
   const auto id = std::to_string(job.json().at("id").get<int>());
   const auto part = svc.post("/api/v1/jobs/" + id + "/parts",

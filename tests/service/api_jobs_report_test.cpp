@@ -61,7 +61,7 @@ std::vector<std::string> records(const std::string& csv) {
 TEST_CASE("a job's part is read as found and replaced, and the report shows both", "[service]") {
   ServiceProcess svc({"--duration-s", "0.2"});
   const auto job = svc.post("/api/v1/jobs", {{"make", "Quillon Audio"},
-                                             {"model", "QA-40 \"Mk II\""},
+                                             {"model", "QI-260 \"Mk II\""},
                                              {"serial", "LLA-26-150"},
                                              {"notes", "<script>alert('hum')</script> at idle"}});
   REQUIRE(job.status == 201);
@@ -163,7 +163,7 @@ TEST_CASE("a job's part is read as found and replaced, and the report shows both
   CHECK(html.body.find("<script") == std::string::npos);
   CHECK(html.body.find("&lt;script&gt;alert(&#39;hum&#39;)&lt;/script&gt; at idle") !=
         std::string::npos);
-  CHECK(html.body.find("QA-40 &quot;Mk II&quot;") != std::string::npos);
+  CHECK(html.body.find("QI-260 &quot;Mk II&quot;") != std::string::npos);
   CHECK(html.body.find("LLA-26-150") != std::string::npos);
   CHECK(html.body.find("Replacement (fitted)") != std::string::npos);
   CHECK(html.body.find("#" + std::to_string(fitted.at("id").get<int>()) + " ") !=
