@@ -37,7 +37,7 @@ void add_sweep_routes(std::vector<Route>& r) {
          const auto b =
              api::parse_body(req.body, {"start_hz", "stop_hz", "points_per_decade", "level_fs",
                                         "duration_s", "refine", "target_u_pct", "label", "part_id",
-                                        "role", "wait", "method", "periods"});
+                                        "role", "wait", "method", "periods", "grid"});
          SweepTask t;
          t.start_hz = api::opt_number(b, "start_hz").value_or(t.start_hz);
          t.stop_hz = api::opt_number(b, "stop_hz").value_or(t.stop_hz);
@@ -53,6 +53,7 @@ void add_sweep_routes(std::vector<Route>& r) {
          t.refine = api::opt_bool(b, "refine").value_or(true);
          t.target_u_pct = api::opt_number(b, "target_u_pct");
          t.method = api::opt_text(b, "method").value_or(t.method);
+         t.grid = api::opt_text(b, "grid").value_or(t.grid);
          if (auto p = api::opt_number(b, "periods")) {
            if (*p != std::floor(*p)) {
              throw Error("request.bad_type", "field 'periods' must be a whole number", "e.g. 6");

@@ -330,7 +330,9 @@ nlohmann::json Engine::run_multisine_sweep(const SweepTask& t, const Settings& s
   rewire_bench(s);
   auto base = request_from(s, std::nullopt, t.level_fs, std::nullopt);
   base.cancel = &cancel_current_;
-  const auto design = plan_multisine(base, t.frequencies());
+  const auto design =
+      plan_multisine(base, t.frequencies(),
+                     t.grid == "odd_odd" ? dsp::MultisineGrid::odd_odd : dsp::MultisineGrid::log);
   const std::size_t k = design.tones.size();
   const double period_s = static_cast<double>(design.period_len) / base.stream.sample_rate_hz;
   const auto periods = static_cast<std::size_t>(

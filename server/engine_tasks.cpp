@@ -113,6 +113,14 @@ void validate(const TaskRequest& t, const Settings& s) {
       }
       in_range("periods", *sw->periods, 2, 256, "analysed multisine periods, e.g. 6");
     }
+    if (sw->grid != "log" && sw->grid != "odd_odd") {
+      throw Error("request.bad_value", "no multisine grid named '" + sw->grid + "'",
+                  "use log (the default) or odd_odd");
+    }
+    if (sw->grid != "log" && sw->method != "multisine") {
+      throw Error("request.bad_value", "grid applies to multisine sweeps only",
+                  "leave out grid, or give method multisine");
+    }
   }
   if (const auto* c = std::get_if<CalibrationTask>(&t)) {
     if (c->kind != "channel_match" && c->kind != "open" && c->kind != "short" &&
@@ -199,6 +207,7 @@ nlohmann::json to_json(const TaskRequest& t) {
     put(j, "target_u_pct", sw->target_u_pct);
     j["method"] = sw->method;
     if (sw->periods) j["periods"] = *sw->periods;
+    if (sw->method == "multisine") j["grid"] = sw->grid;
     if (sw->part_id) j["part_id"] = *sw->part_id;
     if (sw->part_id) j["role"] = sw->role;
   }

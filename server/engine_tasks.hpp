@@ -53,6 +53,9 @@ struct SweepTask {
   std::optional<double> target_u_pct;
   std::string method = "stepped";
   std::optional<int> periods;  ///< multisine only
+  /// Multisine only: "log" (every requested frequency on its nearest bin) or "odd_odd"
+  /// (only bins b with b mod 4 = 1, so distortion lands on unexcited bins; dsp/multisine.hpp).
+  std::string grid = "log";
   std::string label;
   std::optional<std::int64_t> part_id;
   /// With part_id: "original" or "replacement" (PartRole in store.hpp).

@@ -10,7 +10,8 @@
 
 namespace tb {
 
-dsp::MultisineDesign plan_multisine(const MeasureRequest& r, std::span<const double> freqs_hz) {
+dsp::MultisineDesign plan_multisine(const MeasureRequest& r, std::span<const double> freqs_hz,
+                                    dsp::MultisineGrid grid) {
   const double fs = r.stream.sample_rate_hz;
   if (!(r.level_fs > 0 && r.level_fs <= r.level_cap_fs && r.level_cap_fs <= 1)) {
     throw Error("measure.bad_level",
@@ -27,7 +28,7 @@ dsp::MultisineDesign plan_multisine(const MeasureRequest& r, std::span<const dou
   }
   dsp::MultisineConfig c;
   c.sample_rate_hz = fs;
-  c.grid = dsp::MultisineGrid::log;
+  c.grid = grid;
   c.requested_hz.assign(freqs_hz.begin(), freqs_hz.end());
   c.peak_fs = r.level_fs;
   try {

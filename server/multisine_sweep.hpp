@@ -26,10 +26,11 @@
 namespace tb {
 
 /// The multisine for a sweep plan: a log grid on the requested frequencies (moved onto the
-/// period's bins, the lowest kept distinct), peak = request.level_fs (> 0, at most
-/// level_cap_fs). Throws tb::Error measure.bad_level / measure.bad_frequency.
-dsp::MultisineDesign plan_multisine(const MeasureRequest& request,
-                                    std::span<const double> freqs_hz);
+/// period's bins, the lowest kept distinct) or an odd-odd grid (bins b mod 4 = 1 only),
+/// peak = request.level_fs (> 0, at most level_cap_fs). Throws tb::Error measure.bad_level
+/// / measure.bad_frequency.
+dsp::MultisineDesign plan_multisine(const MeasureRequest& request, std::span<const double> freqs_hz,
+                                    dsp::MultisineGrid grid = dsp::MultisineGrid::log);
 
 /// Settling periods for a design: at least one period and at least 0.1 s.
 std::size_t multisine_settle_periods(const dsp::MultisineDesign& design);

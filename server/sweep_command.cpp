@@ -21,13 +21,14 @@ namespace tb {
 
 namespace {
 
-const std::array<cli::OptionSpec, 14> kOptions{{
+const std::array<cli::OptionSpec, 15> kOptions{{
     {"service", "URL", "the running tonebridged, default http://127.0.0.1:7583"},
     {"token", "TOKEN", "access token for a service on another machine (or TONEBRIDGE_TOKEN)"},
     {"start", "HZ", "lowest frequency, default 100"},
     {"stop", "HZ", "highest frequency, default 10k (at most 0.45 of the sample rate)"},
     {"per-decade", "N", "points per decade, default 10"},
     {"method", "stepped|multisine", "one tone at a time (default) or all tones in one capture"},
+    {"grid", "log|odd_odd", "multisine: tones on every bin asked for (log) or on odd-odd bins"},
     {"level", "FRACTION", "output level as a fraction of full scale; default: the service's"},
     {"duration", "SECONDS", "analysed length per point (stepped)"},
     {"label", "TEXT", "a label kept with the sweep, e.g. \"L3 left cabinet\""},
@@ -73,6 +74,12 @@ nlohmann::json request_from(const cli::ParsedArgs& args) {
                   "stepped is the most accurate; multisine takes the whole sweep in one capture");
     }
     body["method"] = *m;
+  }
+  if (auto g = args.get("grid")) {
+    if (*g != "log" && *g != "odd_odd")
+      throw Error("cli.bad_value", "--grid must be log or odd_odd, got " + *g,
+                  "odd_odd leaves bins free for distortion to show on");
+    body["grid"] = *g;
   }
   if (args.get("level")) body["level_fs"] = positive(args, "level", "");
   if (args.get("duration")) body["duration_s"] = positive(args, "duration", "s");

@@ -116,6 +116,31 @@ TEST_CASE("multisine sweep requests are checked", "[service]") {
   bad = svc.post("/api/v1/sweeps", {{"method", "multisine"}, {"periods", 1}});
   CHECK(bad.status == 400);
   CHECK(bad.json().at("error").at("id") == "request.out_of_range");
+  bad = svc.post("/api/v1/sweeps", {{"grid", "odd_odd"}});
+  CHECK(bad.status == 400);
+  bad = svc.post("/api/v1/sweeps", {{"method", "multisine"}, {"grid", "random"}});
+  CHECK(bad.status == 400);
+}
+
+TEST_CASE("an odd-odd multisine sees a linear part as linear", "[service]") {
+  ServiceProcess svc({"--sim-part", "cap 4.7u esr 0.1", "--rref-ohm", "100"});
+  const auto r = svc.post("/api/v1/sweeps", {{"start_hz", 100},
+                                             {"stop_hz", 10000},
+                                             {"points_per_decade", 6},
+                                             {"method", "multisine"},
+                                             {"grid", "odd_odd"},
+                                             {"periods", 4},
+                                             {"level_fs", 0.5},
+                                             {"wait", true}});
+  INFO(r.body);
+  REQUIRE(r.status == 201);
+  const auto id = std::to_string(r.json().at("id").get<int>());
+  const auto full = svc.get("/api/v1/sweeps/" + id + "/export").json();
+  REQUIRE(full.at("points").size() == 13);
+  const auto m = full.at("points").at(0).at("multisine");
+  // A capacitor and a clean simulated card: nothing far above the noise on unexcited bins.
+  CHECK(m.at("nonlinearity_db").get<double>() < -40);
+  CHECK(full.at("params").at("grid") == "odd_odd");
 }
 
 TEST_CASE("a cancelled multisine sweep is kept as cancelled with no points", "[service]") {
