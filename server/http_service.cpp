@@ -103,6 +103,7 @@ HttpService::HttpService(ApiContext& ctx, const AccessControl& access, const Htt
   server_->set_keep_alive_max_count(1000);
   install_routes();
   install_events();
+  if (!options_.vendor_dir.empty()) server_->set_mount_point("/vendor/uplot/", options_.vendor_dir);
   if (!options_.web_dir.empty()) server_->set_mount_point("/", options_.web_dir);
   port_ = options_.port == 0
               ? server_->bind_to_any_port(options_.listen)

@@ -22,6 +22,9 @@ struct HttpOptions {
   std::size_t max_body_bytes = 65536;
   int max_event_clients = 64;
   std::string web_dir;  ///< static files of the page; empty: none
+  /// The plotting library's files (uPlot's dist/ from npm), served under /vendor/uplot/ so
+  /// the page works on a bench without internet; empty or missing: the page draws no plots.
+  std::string vendor_dir;
 };
 
 class HttpService {

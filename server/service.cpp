@@ -42,6 +42,8 @@ constexpr const char* kUsage =
     "  --new-token       make a new LAN access token (the old ones stop working)\n"
     "  --viewer-token    also make a read-only token for a viewer tablet\n"
     "  --web-dir DIR     the page's files (default: the web/ folder of the source tree)\n"
+    "  --vendor-dir DIR  the plotting library, served as /vendor/uplot/ (default: the\n"
+    "                    source tree's node_modules/uplot/dist, put there by ./tbdev)\n"
     "  --list-routes     print the API's routes and exit\n"
     "  --help            this text\n\n"
     "settings (also in the config file, docs/configuration.md):\n";
@@ -52,7 +54,7 @@ constexpr const char* kSafety =
     "the sound card's inputs. See docs/safety.md.\n";
 
 struct ProgramFlags {
-  std::string config, web_dir = TB_WEB_DIR;
+  std::string config, web_dir = TB_WEB_DIR, vendor_dir = TB_VENDOR_DIR;
   bool demo = false, new_token = false, viewer_token = false, list_routes = false, help = false;
 };
 
@@ -73,6 +75,8 @@ ProgramFlags take_program_flags(std::vector<std::string>& args) {
       f.config = a.substr(9);
     else if (a == "--web-dir")
       value(f.web_dir);
+    else if (a == "--vendor-dir")
+      value(f.vendor_dir);
     else if (a == "--demo")
       f.demo = true;
     else if (a == "--new-token")
@@ -197,6 +201,7 @@ int run_service(const std::vector<std::string>& argv, std::ostream& out, std::os
     http.max_body_bytes = static_cast<std::size_t>(initial.integer("max_body_bytes"));
     http.max_event_clients = initial.integer("max_event_clients");
     http.web_dir = flags.web_dir;
+    http.vendor_dir = flags.vendor_dir;
     HttpService service(ctx, access, http);
     access.set_port(service.port());
     ctx.service["port"] = service.port();
