@@ -8,6 +8,7 @@
 #include <numeric>
 #include <stdexcept>
 #include <utility>
+#include <vector>
 
 namespace tb::dsp {
 
@@ -125,6 +126,40 @@ SignalStrength check_signal_strength(double level_b_fs, double snr_a_db, double 
   s.level_low = level_b_fs < min_level_fs;
   s.snr_low = snr_a_db < min_snr_db || snr_b_db < min_snr_db;
   return s;
+}
+
+SourceSteadiness check_source_steady(std::span<const double> x, std::size_t block_len,
+                                     double played_rms_fs, double change_tol_rel, double lost_rel,
+                                     double silent_rel) {
+  SourceSteadiness out;
+  if (block_len == 0) throw std::invalid_argument("check_source_steady: block_len must be >= 1");
+  const std::size_t n = x.size() / block_len;
+  if (n < 2) return out;
+  std::vector<double> rms(n);
+  for (std::size_t k = 0; k < n; ++k) {
+    double e = 0;
+    for (std::size_t i = 0; i < block_len; ++i)
+      e += x[k * block_len + i] * x[k * block_len + i];
+    rms[k] = std::sqrt(e / static_cast<double>(block_len));
+  }
+  std::vector<double> sorted = rms;
+  std::nth_element(sorted.begin(), sorted.begin() + static_cast<std::ptrdiff_t>(n / 2),
+                   sorted.end());
+  out.median_rms_fs = sorted[n / 2];
+  if (out.median_rms_fs < silent_rel * played_rms_fs || out.median_rms_fs <= 0) {
+    out.lost = true;
+    return out;
+  }
+  for (std::size_t k = 0; k < n; ++k) {
+    const double change = rms[k] / out.median_rms_fs - 1;
+    if (std::abs(change) > std::abs(out.worst_change_rel)) {
+      out.worst_change_rel = change;
+      out.worst_block = k;
+    }
+    if (rms[k] < lost_rel * out.median_rms_fs) out.lost = true;
+  }
+  out.changed = std::abs(out.worst_change_rel) > change_tol_rel;
+  return out;
 }
 
 }  // namespace tb::dsp

@@ -6,6 +6,7 @@
 #pragma once
 
 #include <complex>
+#include <cstddef>
 #include <span>
 
 namespace tb::dsp {
@@ -85,5 +86,26 @@ struct SignalStrength {
 /// reading scatters by more than about 1 % per block (common practice, no source).
 SignalStrength check_signal_strength(double level_b_fs, double snr_a_db, double snr_b_db,
                                      double min_level_fs = 1e-3, double min_snr_db = 40);
+
+struct SourceSteadiness {
+  bool lost = false;     ///< node A silent, or a block far below the others (a dropout)
+  bool changed = false;  ///< a block's level away from the median by more than the tolerance
+  double median_rms_fs = 0;
+  double worst_change_rel = 0;  ///< largest |block rms / median - 1|
+  std::size_t worst_block = 0;  ///< index of that block
+};
+
+/// Whether node A (the generator side: the card's output as the jig sees it) held its level
+/// through a stretch where a constant-level tone played. The ratio V_B / V_A hides a level
+/// change, but a generator that drops out or jumps means a loose lead or a card that
+/// stopped playing, and the reading is of nothing in particular. `x` is node A over that
+/// stretch, cut into blocks of block_len (>= 1; a shorter last part is ignored).
+/// lost: the median block rms below silent_rel x played_rms_fs (nothing arrives), or a block
+/// below lost_rel x the median (a dropout). changed: a block more than change_tol_rel from
+/// the median. Under two whole blocks: nothing is judged (all false).
+/// Example: a 0.3 rms tone that stops half way: lost == true.
+SourceSteadiness check_source_steady(std::span<const double> x, std::size_t block_len,
+                                     double played_rms_fs, double change_tol_rel = 0.1,
+                                     double lost_rel = 0.2, double silent_rel = 0.01);
 
 }  // namespace tb::dsp

@@ -38,12 +38,17 @@ void add_service_routes(std::vector<Route>& r) {
                [](ApiContext& ctx, const httplib::Request&) {
                  nlohmann::json list = nlohmann::json::array();
                  for (const auto& d : list_devices(ctx.settings.get())) {
-                   list.push_back({{"id", d.id},
-                                   {"name", d.name},
-                                   {"inputs", d.inputs},
-                                   {"outputs", d.outputs},
-                                   {"sample_rates_hz", d.sample_rates_hz},
-                                   {"simulated", d.simulated}});
+                   nlohmann::json j = {{"id", d.id},
+                                       {"name", d.name},
+                                       {"inputs", d.inputs},
+                                       {"outputs", d.outputs},
+                                       {"sample_rates_hz", d.sample_rates_hz},
+                                       {"simulated", d.simulated}};
+                   if (!d.simulated) {
+                     j["index"] = d.index;
+                     j["host_api"] = d.host_api;
+                   }
+                   list.push_back(j);
                  }
                  return ApiReply{200, {{"devices", list}, {"in_use", ctx.engine.status().device}}};
                }});

@@ -10,6 +10,7 @@
 #pragma once
 
 #include <cstddef>
+#include <cstdint>
 #include <functional>
 #include <span>
 #include <string>
@@ -23,6 +24,8 @@ struct DeviceInfo {
   int inputs = 2, outputs = 1;
   std::vector<double> sample_rates_hz;
   bool simulated = false;
+  int index = -1;        ///< PortAudio device index at the last scan; -1 for the simulated bench
+  std::string host_api;  ///< PortAudio host API ("ALSA", "JACK Audio Connection Kit"); empty
 };
 
 struct StreamSpec {
@@ -44,6 +47,9 @@ class AudioDevice {
   virtual void stop() = 0;
   /// False once stopped, or when the device stopped by itself (device lost).
   virtual bool running() const = 0;
+  /// Periods the device reported as damaged since it was made (input overflow, output
+  /// underflow). Read it before and after a capture: a change means the capture holds a gap.
+  virtual std::uint64_t xruns() const { return 0; }
 };
 
 }  // namespace tb

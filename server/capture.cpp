@@ -9,9 +9,11 @@
 
 namespace tb {
 
-Capture play_and_capture(AudioDevice& device, const StreamSpec& spec,
-                         std::span<const double> excitation, std::size_t tail_frames,
-                         const std::atomic<bool>* cancel) {
+namespace {
+
+Capture capture_once(AudioDevice& device, const StreamSpec& spec,
+                     std::span<const double> excitation, std::size_t tail_frames,
+                     const std::atomic<bool>* cancel) {
   const std::size_t total = excitation.size() + tail_frames;
   Capture cap;
   cap.sample_rate_hz = spec.sample_rate_hz;
@@ -75,6 +77,29 @@ Capture play_and_capture(AudioDevice& device, const StreamSpec& spec,
                 "check the connection to the sound card and measure again");
   }
   return cap;
+}
+
+}  // namespace
+
+Capture play_and_capture(AudioDevice& device, const StreamSpec& spec,
+                         std::span<const double> excitation, std::size_t tail_frames,
+                         const std::atomic<bool>* cancel) {
+  // A damaged period (xrun) inside the capture is a gap or a repeat the analysis cannot see:
+  // the whole capture is taken again once, then refused. Counted from start to stop, so a
+  // gap anywhere in the window counts.
+  for (int attempt = 0;; ++attempt) {
+    const std::uint64_t before = device.xruns();
+    Capture cap = capture_once(device, spec, excitation, tail_frames, cancel);
+    const std::uint64_t xruns = device.xruns() - before;
+    if (xruns == 0) return cap;
+    if (attempt == 1) {
+      throw Error("capture.xrun",
+                  "the sound card dropped or repeated samples (" + std::to_string(xruns) +
+                      " xrun(s)) during the capture, twice in a row",
+                  "close other programs using the card or the CPU, raise period_frames, and "
+                  "measure again");
+    }
+  }
 }
 
 }  // namespace tb

@@ -18,10 +18,12 @@ struct Capture {
 };
 
 /// Plays `excitation` (full-scale units, one channel) and records until it has played and
-/// `tail_frames` more have been captured. Blocks. Nothing partial is returned; throws
+/// `tail_frames` more have been captured. Blocks. A capture during which the device counted
+/// an xrun (AudioDevice::xruns) is taken again once. Nothing partial is returned; throws
 /// tb::Error
 ///   device.lost     the device stopped before the capture was complete;
 ///   capture.overrun the ring overflowed (this thread fell behind the device);
+///   capture.xrun    the device reported an xrun in the capture and again in its retake;
 ///   task.cancelled  `*cancel` became true (checked every few milliseconds).
 Capture play_and_capture(AudioDevice& device, const StreamSpec& spec,
                          std::span<const double> excitation, std::size_t tail_frames,

@@ -2,6 +2,7 @@
 
 #include "dsp/part_spec.hpp"
 #include "server/error.hpp"
+#include "server/portaudio_device.hpp"
 #include "server/simulated_card.hpp"
 
 namespace tb {
@@ -25,14 +26,24 @@ SimulatedBenchConfig bench_config(const Settings& s) {
 }  // namespace
 
 std::vector<DeviceInfo> list_devices(const Settings&) {
-  return {SimulatedCard::describe()};
+  std::vector<DeviceInfo> out{SimulatedCard::describe()};
+  for (auto& d : list_portaudio_devices())
+    out.push_back(std::move(d));
+  return out;
 }
 
 std::unique_ptr<AudioDevice> open_device(const Settings& s) {
   const std::string& id = s.text("device");
   if (id == "simulated") return std::make_unique<SimulatedCard>(bench_config(s));
+  if (id.rfind("pa:", 0) == 0) {
+    return std::make_unique<PortAudioDevice>(find_portaudio_device(id),
+                                             ChannelMap{.node_a = s.integer("input_node_a"),
+                                                        .node_b = s.integer("input_node_b"),
+                                                        .output = s.integer("output_channel")});
+  }
   throw Error("device.unknown", "no audio device '" + id + "'",
-              "this version has the simulated bench only: set device = simulated");
+              "set device = simulated or a PortAudio id \"pa:...\" (GET /api/v1/devices "
+              "lists them)");
 }
 
 }  // namespace tb

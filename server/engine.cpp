@@ -2,6 +2,7 @@
 
 #include <chrono>
 
+#include "server/device_registry.hpp"
 #include "server/error.hpp"
 #include "server/error_report.hpp"
 #include "server/simulated_card.hpp"
@@ -253,6 +254,22 @@ void Engine::run() {
   set_state(EngineState::stopping);
 }
 
+void Engine::reopen_device(const Settings& s) {
+  // The old device object may hold a dead stream or a stale device list: make a new one
+  // from the settings, and keep the old one if the device is still not there.
+  std::unique_ptr<AudioDevice> fresh;
+  try {
+    fresh = open_device(s);
+  } catch (const Error& e) {
+    if (e.id() != "device.unknown") throw;
+    throw Error("device.lost", "the audio device '" + s.text("device") + "' is still not there",
+                "reconnect the sound card (or start its JACK client again) and retry");
+  }
+  device_ = std::move(fresh);
+  bench_ = dynamic_cast<SimulatedCard*>(device_.get());
+  device_lost_ = false;
+}
+
 void Engine::execute(Queued& q) {
   const Settings s = settings_.get();
   TaskInfo& info = q.info;
@@ -269,6 +286,8 @@ void Engine::execute(Queued& q) {
   set_state(states[q.request.index()]);
   bool lost = false;
   try {
+    // The simulated bench cannot be lost; a wrapped device (tests) is kept as it is.
+    if (device_lost_ && !device_->info().simulated) reopen_device(s);
     if (const auto* r = std::get_if<ReadingTask>(&q.request)) {
       info.total = 1;
       info.result = run_reading(*r, s, "single", info.id, &info);
@@ -291,6 +310,7 @@ void Engine::execute(Queued& q) {
     if (e.id != "task.cancelled")
       info.error = {{"id", e.id}, {"message", e.message}, {"hint", e.hint}};
     lost = e.id == "device.lost";
+    device_lost_ = lost;
     std::lock_guard lock(m_);
     if (!info.error.is_null()) status_.last_error = info.error;
   }

@@ -6,6 +6,10 @@
 // A sweep is saved point by point as it is measured (through the store sink). A sweep
 // that ends early keeps its points and says why: cancelled (a client), failed (the
 // device or the store), interrupted (the service stopped).
+//
+// A task that loses the device (device.lost) leaves the engine in device_lost; the next
+// task opens the device again from the settings before it runs, so the service outlives
+// an unplugged card.
 #pragma once
 
 #include <atomic>
@@ -107,6 +111,9 @@ class Engine {
   void publish(EngineEvent& e);
   void update_task(const TaskInfo& info);
   std::string device_id() const;
+  /// After a task ended with device.lost: opens the device the settings name again (a
+  /// card plugged back in, a JACK client restarted). Throws device.lost if it is still gone.
+  void reopen_device(const Settings& s);
   /// Publishes `prompt` with the task and blocks until resume(), cancellation
   /// (task.cancelled) or `timeout_s` (task.no_answer).
   void await_user(TaskInfo& info, const std::string& prompt, double timeout_s = 600);
@@ -151,6 +158,7 @@ class Engine {
   bool awaiting_ = false, resumed_ = false;  // a prompt is out / it was confirmed
   bool stopping_ = false;
   bool shutdown_done_ = false;
+  bool device_lost_ = false;  // engine thread only: the last task lost the device
   std::thread thread_;
 };
 

@@ -256,7 +256,9 @@ nlohmann::json Engine::run_sweep(const SweepTask& t, const Settings& s, TaskInfo
     } catch (...) {
       const ErrorInfo e = describe_current_error();
       const bool fatal = e.id == "task.cancelled" || e.id == "part.charged" ||
-                         e.id.rfind("device.", 0) == 0 || e.id.rfind("capture.", 0) == 0;
+                         e.id.rfind("device.", 0) == 0 || e.id.rfind("capture.", 0) == 0 ||
+                         // The generator is gone or unsteady: no later point can be read.
+                         e.id == "signal.lost" || e.id == "signal.level_changed";
       if (fatal) throw;
       // This frequency alone could not be read (e.g. the part shorts the bridge there):
       // keep the point with its reason and go on.

@@ -70,12 +70,13 @@ int status_for(const std::string& id) {
   if (ends(id, ".conflict") || ends(id, ".busy")) return 409;
   if (id == "request.too_large") return 413;
   if (id == "engine.queue_full" || id == "events.too_many_clients") return 429;
-  if (id == "engine.stopping" || starts(id, "device.")) return 503;
+  // The bench, not the request: the card, its samples or the generator signal failed.
+  if (id == "engine.stopping" || starts(id, "device.") || starts(id, "capture.") ||
+      id == "signal.lost" || id == "signal.level_changed")
+    return 503;
   // The request was fine but the signal could not be read (clipping, no tone, not settled):
   // the technician's to fix at the jig, not a bug of the service.
-  if (starts(id, "analysis.") || starts(id, "recording.") || starts(id, "capture.") ||
-      starts(id, "signal."))
-    return 422;
+  if (starts(id, "analysis.") || starts(id, "recording.") || starts(id, "signal.")) return 422;
   if (starts(id, "request.") || starts(id, "config.") || starts(id, "part.") ||
       starts(id, "measure.") || starts(id, "circuit.") || starts(id, "check.") ||
       starts(id, "marking.") || starts(id, "fit."))

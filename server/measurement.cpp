@@ -91,6 +91,19 @@ struct Played {
   double level_fs = 0;
 };
 
+// The analysed stretch of a single-tone capture: from `guard` samples after the analysis
+// start (the device's latency) to the start of the fade-out.
+void check_generator(const Capture& cap, const dsp::TonePlan& plan, std::size_t guard,
+                     double level) {
+  const std::size_t block =
+      std::max(plan.block_len, static_cast<std::size_t>(plan.sample_rate_hz / 10));
+  // The excitation fades out over its last fade_in_samples: not a change of the source.
+  const std::size_t end =
+      plan.total_samples() - std::min(plan.fade_in_samples, plan.total_samples());
+  check_generator_level(cap.a, plan.analysis_start() + guard, end, block, level / std::sqrt(2.0),
+                        plan.sample_rate_hz);
+}
+
 Played play_and_analyze(AudioDevice& device, const MeasureRequest& request,
                         dsp::AnalysisConfig config, double level) {
   const auto plan = plan_for(request);
@@ -99,6 +112,7 @@ Played play_and_analyze(AudioDevice& device, const MeasureRequest& request,
     const auto x = excitation(plan, level);
     const auto cap = play_and_capture(device, request.stream, x, request.stream.period_frames * 4,
                                       request.cancel);
+    check_generator(cap, plan, request.stream.period_frames * 4, level);
     try {
       return {dsp::analyze_recording(cap.a, cap.b, config).readings.at(0), level};
     } catch (const dsp::AnalysisError& e) {
@@ -462,6 +476,37 @@ Advice advise(const dsp::ToneReading& reading, const MeasureRequest& request) {
            num(a.u_advised_rel * 100, 2) + " % instead of ±" + num(a.u_now_rel * 100, 2) +
            " % now (k = 2)";
   return a;
+}
+
+void check_generator_level(std::span<const double> a, std::size_t begin, std::size_t end,
+                           std::size_t block, double played_rms_fs, double sample_rate_hz) {
+  begin = std::min(begin, a.size());
+  end = std::min(end, a.size());
+  if (end <= begin || block == 0) return;
+  const auto s = dsp::check_source_steady(a.subspan(begin, end - begin), block, played_rms_fs);
+  const auto at_s = [&](std::size_t k) {
+    std::ostringstream o;
+    o.precision(2);
+    o << std::fixed << static_cast<double>(begin + k * block) / sample_rate_hz;
+    return o.str();
+  };
+  if (s.lost) {
+    throw Error("signal.lost",
+                s.median_rms_fs < 0.01 * played_rms_fs
+                    ? "no test signal reached input 1 (node A) while the tone played"
+                    : "the test signal at input 1 (node A) dropped out " + at_s(s.worst_block) +
+                          " s into the capture",
+                "check the lead from the card's output to the jig and the input 1 connection, "
+                "and that nothing else took over the card; then measure again");
+  }
+  if (s.changed) {
+    throw Error("signal.level_changed",
+                "the test signal at input 1 (node A) changed level by " +
+                    std::to_string(static_cast<int>(std::lround(s.worst_change_rel * 100))) +
+                    " % " + at_s(s.worst_block) + " s into the capture",
+                "look for a loose lead or a touched volume control, and keep the card's "
+                "automatic gain and effects off; then measure again");
+  }
 }
 
 }  // namespace tb

@@ -17,6 +17,7 @@
 #include <atomic>
 #include <functional>
 #include <optional>
+#include <span>
 #include <string>
 #include <vector>
 
@@ -174,5 +175,14 @@ dsp::AnalysisConfig analysis_config_for(const MeasureRequest& request, double fr
 /// advised only when it predicts more than 1.5 times lower uncertainty (so near-ties keep
 /// what is on the jig). A reading without a usable |Z| (0 or not finite) gets no advice.
 Advice advise(const dsp::ToneReading& reading, const MeasureRequest& request);
+
+/// Node A must hold the played level through the analysed stretch
+/// (dsp::check_source_steady): a generator that falls silent or jumps mid-reading (a loose
+/// lead, a card that stopped playing, a jig unplugged) gives a ratio of nothing in
+/// particular. Checks a[begin, end) in blocks of `block` samples against the played rms
+/// (full-scale units). Throws tb::Error signal.lost (silent, or a dropout) or
+/// signal.level_changed (a block more than 10 % from the others).
+void check_generator_level(std::span<const double> a, std::size_t begin, std::size_t end,
+                           std::size_t block, double played_rms_fs, double sample_rate_hz);
 
 }  // namespace tb

@@ -89,6 +89,15 @@ MultisineSweep measure_multisine(AudioDevice& device, const MeasureRequest& requ
       t.amplitude_fs /= 3;
   }
   out.level_fs = level;
+  {
+    double e = 0;
+    for (double v : out.design.period)
+      e += v * v;
+    const double rms = std::sqrt(e / static_cast<double>(std::max<std::size_t>(1, n)));
+    const std::size_t guard = request.stream.period_frames * 4;
+    const std::size_t block = std::max(n, static_cast<std::size_t>(fs / 10)) / n * n;
+    check_generator_level(cap.a, start + guard, start + periods * n, block, rms, fs);
+  }
   // The device's latency delays the capture against the excitation: the analysis must start
   // on a period boundary of what the inputs saw. Whole periods are still whole periods
   // shifted by the latency; only the tones' absolute phases move, and they cancel in B/A.

@@ -124,7 +124,9 @@ const std::vector<SettingSpec>& setting_specs() {
       numeric("port", T::integer, "7583", 0, 65535, "", false,
               "TCP port; 0 takes any free port (it is printed at start)"),
       worded("db", T::text, "", {}, "", false, "database file; empty: the default path"),
-      worded("device", T::text, "simulated", {}, "", false, "audio device id"),
+      worded("device", T::text, "simulated", {}, "", false,
+             "audio device id: simulated, or a PortAudio device \"pa:<host api>:<name>\", "
+             "\"pa:<index>\" or \"pa:<name>\" (GET /api/v1/devices lists them)"),
       worded("sample_rate_hz", T::choice, "48000", {"44100", "48000", "96000", "192000"}, "Hz",
              false, "sample rate of the sound card"),
       numeric("period_frames", T::integer, "256", 64, 8192, "", false, "frames per device period"),
@@ -178,6 +180,12 @@ const std::vector<SettingSpec>& setting_specs() {
               "largest request body, bytes"),
       numeric("max_event_clients", T::integer, "64", 1, 256, "", false,
               "most live event streams at once"),
+      numeric("input_node_a", T::integer, "1", 1, 64, "", false,
+              "input channel (1-based) that reads node A, the generator side of the jig"),
+      numeric("input_node_b", T::integer, "2", 1, 64, "", false,
+              "input channel (1-based) that reads node B, the junction of Rref and the part"),
+      numeric("output_channel", T::integer, "1", 1, 64, "", false,
+              "output channel (1-based) that drives the jig"),
   };
   return specs;
 }
@@ -206,6 +214,12 @@ void Settings::assign(std::string_view name, std::string_view value, std::string
 }
 
 void Settings::check_across_keys(std::string_view where) const {
+  if (integer("input_node_a") == integer("input_node_b"))
+    throw config_error("config.out_of_range", where,
+                       "input_node_a and input_node_b are both input " + as_text("input_node_a") +
+                           ": one input cannot read both nodes",
+                       "set them to the two inputs the jig's nodes are wired to (defaults 1 "
+                       "and 2)");
   if (number("level_fs") > number("level_cap_fs"))
     throw config_error("config.out_of_range", where,
                        "level_fs " + as_text("level_fs") + " is above level_cap_fs " +

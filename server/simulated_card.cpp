@@ -89,8 +89,14 @@ SimulatedCard::~SimulatedCard() {
 }
 
 DeviceInfo SimulatedCard::describe() {
-  return {"simulated", "simulated bench (hidden card faults)", 2,
-          1,           {44100, 48000, 96000, 192000},          true};
+  DeviceInfo d;
+  d.id = "simulated";
+  d.name = "simulated bench (hidden card faults)";
+  d.inputs = 2;
+  d.outputs = 1;
+  d.sample_rates_hz = {44100, 48000, 96000, 192000};
+  d.simulated = true;
+  return d;
 }
 
 void SimulatedCard::reconnect(const dsp::JigSetup& jig, const dsp::Netlist& part) {

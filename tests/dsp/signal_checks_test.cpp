@@ -113,3 +113,58 @@ TEST_CASE("hum on the test tone is bounded from the silent capture", "[signal_ch
   // 120 Hz is no harmonic of 50 Hz: the lock-in rejects the hum, no term.
   CHECK(hum_on_tone_rel(120, 50, 1e-4, 1e-4, 0.02, 0.01, 0.5) == 0);
 }
+
+namespace {
+
+// A 1 kHz tone at 48 kHz, peak `amp`, whose amplitude is multiplied by `gain` from sample
+// `from` on.
+std::vector<double> tone_with_step(double amp, std::size_t n, std::size_t from, double gain) {
+  std::vector<double> x(n);
+  for (std::size_t i = 0; i < n; ++i)
+    x[i] = amp * (i >= from ? gain : 1.0) *
+           std::sin(2 * std::numbers::pi * 1000 * static_cast<double>(i) / 48000);
+  return x;
+}
+
+}  // namespace
+
+TEST_CASE("a steady generator passes the source steadiness check", "[signal_checks]") {
+  const auto x = tone_with_step(0.3, 48000, 0, 1.0);
+  const auto s = check_source_steady(x, 4800, 0.3 / std::sqrt(2.0));
+  CHECK_FALSE(s.lost);
+  CHECK_FALSE(s.changed);
+  CHECK(s.median_rms_fs == Approx(0.3 / std::sqrt(2.0)).epsilon(1e-6));
+  CHECK(std::abs(s.worst_change_rel) < 1e-6);
+}
+
+TEST_CASE("a generator that stops half way is reported lost at the block it stopped",
+          "[signal_checks]") {
+  const auto x = tone_with_step(0.3, 48000, 28800, 0.0);  // silent from block 6 of 10
+  const auto s = check_source_steady(x, 4800, 0.3 / std::sqrt(2.0));
+  CHECK(s.lost);
+  CHECK(s.worst_block == 6);
+  CHECK(s.worst_change_rel == Approx(-1.0));
+}
+
+TEST_CASE("a generator that never arrives is reported lost", "[signal_checks]") {
+  const auto x = tone_with_step(1e-4, 48000, 0, 1.0);  // -70 dB of the 0.3 played
+  CHECK(check_source_steady(x, 4800, 0.3 / std::sqrt(2.0)).lost);
+}
+
+TEST_CASE("a 15 percent level jump is a change, a 5 percent one is not", "[signal_checks]") {
+  const auto jump = check_source_steady(tone_with_step(0.3, 48000, 38400, 1.15), 4800, 0.2);
+  CHECK(jump.changed);
+  CHECK_FALSE(jump.lost);
+  CHECK(jump.worst_change_rel == Approx(0.15).margin(1e-6));
+  CHECK(jump.worst_block >= 8);  // blocks 8 and 9 both jumped
+  const auto small = check_source_steady(tone_with_step(0.3, 48000, 38400, 1.05), 4800, 0.2);
+  CHECK_FALSE(small.changed);
+  CHECK_FALSE(small.lost);
+}
+
+TEST_CASE("under two blocks the source steadiness check judges nothing", "[signal_checks]") {
+  const auto s = check_source_steady(std::vector<double>(6000, 0.0), 4800, 0.2);
+  CHECK_FALSE(s.lost);
+  CHECK_FALSE(s.changed);
+  CHECK_THROWS_AS(check_source_steady(std::vector<double>(10, 0.0), 0, 0.2), std::invalid_argument);
+}

@@ -407,3 +407,21 @@ TEST_CASE("the config file is looked for under XDG_CONFIG_HOME, else HOME", "[se
   if (xdg) setenv("XDG_CONFIG_HOME", saved_xdg.c_str(), 1);
   if (home) setenv("HOME", saved_home.c_str(), 1);
 }
+
+TEST_CASE("the channel map defaults to 1, 2, 1 and one input cannot read both nodes",
+          "[settings]") {
+  Settings s;
+  CHECK(s.integer("input_node_a") == 1);
+  CHECK(s.integer("input_node_b") == 2);
+  CHECK(s.integer("output_channel") == 1);
+  try {
+    s.set("input_node_b", "1", "test");
+    FAIL("no error");
+  } catch (const tb::Error& e) {
+    CHECK(e.id() == "config.out_of_range");
+  }
+  CHECK(s.integer("input_node_b") == 2);  // all or nothing: unchanged
+  s.set_all({{"input_node_a", "3", "test"}, {"input_node_b", "4", "test"}}, "test");
+  CHECK(s.integer("input_node_a") == 3);
+  CHECK(s.integer("input_node_b") == 4);
+}
