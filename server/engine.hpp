@@ -127,6 +127,9 @@ class Engine {
   nlohmann::json run_multisine_sweep(const SweepTask& t, const Settings& s, TaskInfo& info);
   /// The end of a sweep that stopped on `e`: "cancelled"/"interrupted"/"failed" and its error.
   std::pair<std::string, nlohmann::json> sweep_stop(const ErrorInfo& e);
+  /// Publishes sweep.begin for `points` planned points (the store sink gives it an id) and
+  /// puts the sweep's id in the task's result; returns the id.
+  std::int64_t begin_sweep(const SweepTask& t, TaskInfo& info, int points);
   /// Publishes sweep.end; throws task.cancelled for a cancelled or interrupted sweep and the
   /// sweep's error for a failed one.
   void end_sweep(std::int64_t sweep_id, const std::string& status, const nlohmann::json& error,

@@ -203,17 +203,7 @@ nlohmann::json Engine::run_sweep(const SweepTask& t, const Settings& s, TaskInfo
   if (t.method == "multisine") return run_multisine_sweep(t, s, info);
   rewire_bench(s);
   const auto planned = t.frequencies();
-  info.total = static_cast<int>(planned.size());
-  EngineEvent begin{"sweep.begin",
-                    {{"task_id", info.id},
-                     {"params", to_json(TaskRequest{t})},
-                     {"points_planned", info.total},
-                     {"label", t.label}}};
-  if (t.part_id) begin.data["part_id"] = *t.part_id;
-  publish(begin);
-  const std::int64_t sweep_id = begin.data.value("sweep_id", std::int64_t{0});
-  info.result = {{"sweep_id", sweep_id}};
-  update_task(info);
+  const std::int64_t sweep_id = begin_sweep(t, info, static_cast<int>(planned.size()));
 
   // What was measured so far, by frequency, for settling and refinement.
   std::map<double, std::complex<double>> measured;
@@ -311,6 +301,21 @@ nlohmann::json Engine::run_sweep(const SweepTask& t, const Settings& s, TaskInfo
   return info.result;
 }
 
+std::int64_t Engine::begin_sweep(const SweepTask& t, TaskInfo& info, int points) {
+  info.total = points;
+  EngineEvent begin{"sweep.begin",
+                    {{"task_id", info.id},
+                     {"params", to_json(TaskRequest{t})},
+                     {"points_planned", info.total},
+                     {"label", t.label}}};
+  if (t.part_id) begin.data["part_id"] = *t.part_id;
+  publish(begin);
+  const std::int64_t sweep_id = begin.data.value("sweep_id", std::int64_t{0});
+  info.result = {{"sweep_id", sweep_id}};
+  update_task(info);
+  return sweep_id;
+}
+
 std::pair<std::string, nlohmann::json> Engine::sweep_stop(const ErrorInfo& e) {
   if (e.id != "task.cancelled") return {"failed", error_json(e)};
   bool stopping;
@@ -357,17 +362,7 @@ nlohmann::json Engine::run_multisine_sweep(const SweepTask& t, const Settings& s
   base.volts_per_fs = reqs.front().volts_per_fs;
   base.level_calibrated = reqs.front().level_calibrated;
 
-  info.total = static_cast<int>(k);
-  EngineEvent begin{"sweep.begin",
-                    {{"task_id", info.id},
-                     {"params", to_json(TaskRequest{t})},
-                     {"points_planned", info.total},
-                     {"label", t.label}}};
-  if (t.part_id) begin.data["part_id"] = *t.part_id;
-  publish(begin);
-  const std::int64_t sweep_id = begin.data.value("sweep_id", std::int64_t{0});
-  info.result = {{"sweep_id", sweep_id}};
-  update_task(info);
+  const std::int64_t sweep_id = begin_sweep(t, info, static_cast<int>(k));
 
   // One capture: a cancel or a lost device during it leaves nothing to save, so the sweep
   // is kept with no points; once it is in, every point is saved.
