@@ -18,10 +18,11 @@ class ExchangedInputs final : public AudioDevice {
   void start(const StreamSpec& spec, DuplexCallback callback) override {
     inner_.start(spec,
                  [cb = std::move(callback)](std::span<const float> a, std::span<const float> b,
-                                            std::span<float> out) { cb(b, a, out); });
+                                            std::span<float> out) { return cb(b, a, out); });
   }
   void stop() override { inner_.stop(); }
   bool running() const override { return inner_.running(); }
+  std::uint64_t xruns() const override { return inner_.xruns(); }
 
  private:
   AudioDevice& inner_;

@@ -7,6 +7,7 @@
 
 #include "dsp/jig_model.hpp"
 #include "server/bench_procedure.hpp"
+#include "server/error.hpp"
 #include "server/simulated_card.hpp"
 
 using namespace tb;
@@ -114,4 +115,47 @@ TEST_CASE("swap and average survives a touched gain knob that a stale channel ma
                             << v.values.r_ohm << " +- " << v.u_r.expanded << ", X "
                             << v.values.x_ohm << " +- " << v.u_x.expanded << " ohm; truth " << truth
                             << ")");
+}
+
+namespace {
+
+// The simulated bench with a flaky link: while `flaky` is set, every stream reports an xrun.
+class FlakyBench final : public AudioDevice {
+ public:
+  explicit FlakyBench(SimulatedBenchConfig c) : card(std::move(c)) {}
+  DeviceInfo info() const override { return card.info(); }
+  void start(const StreamSpec& spec, DuplexCallback cb) override {
+    if (flaky) ++xruns_;
+    card.start(spec, std::move(cb));
+  }
+  void stop() override { card.stop(); }
+  bool running() const override { return card.running(); }
+  std::uint64_t xruns() const override { return xruns_; }
+
+  SimulatedCard card;
+  bool flaky = false;
+
+ private:
+  std::uint64_t xruns_ = 0;
+};
+
+}  // namespace
+
+TEST_CASE("an xrun in the swapped capture refuses the swap-averaged reading", "[swap_average]") {
+  SimulatedBenchConfig cfg;
+  cfg.card = dsp::ideal_card();
+  cfg.part = capacitor(22e-6, 0.2);
+  cfg.jig.rref_ohm = 100;
+  FlakyBench dev(cfg);
+  try {
+    (void)measure_swap_averaged(dev, request(1000, 100), std::nullopt, [&](bool swapped) {
+      auto j = cfg.jig;
+      j.inputs_swapped = swapped;
+      dev.card.reconnect(j, cfg.part);
+      dev.flaky = swapped;  // the normal capture is clean, the swapped one is not
+    });
+    FAIL("the damaged swapped capture was used");
+  } catch (const Error& e) {
+    CHECK(e.id() == "capture.xrun");
+  }
 }
