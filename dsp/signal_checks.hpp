@@ -95,6 +95,9 @@ struct SourceSteadiness {
   std::size_t worst_block = 0;  ///< index of that block
 };
 
+/// Node A below this share of the played level is no signal at all (see check_source_steady).
+inline constexpr double kSourceSilentRel = 1e-3;
+
 /// Whether node A (the generator side: the card's output as the jig sees it) held its level
 /// through a stretch where a constant-level tone played. The ratio V_B / V_A hides a level
 /// change, but a generator that drops out or jumps means a loose lead or a card that
@@ -103,9 +106,12 @@ struct SourceSteadiness {
 /// lost: the median block rms below silent_rel x played_rms_fs (nothing arrives), or a block
 /// below lost_rel x the median (a dropout). changed: a block more than change_tol_rel from
 /// the median. Under two whole blocks: nothing is judged (all false).
+/// silent_rel is -60 dB: a heavily loaded output (a 1 ohm Rref behind a headphone output of
+/// 100 ohm, or an amplifier at its current limit) still puts node A at 1-3 % of the played
+/// level, and only a missing lead leaves noise and hum alone.
 /// Example: a 0.3 rms tone that stops half way: lost == true.
 SourceSteadiness check_source_steady(std::span<const double> x, std::size_t block_len,
                                      double played_rms_fs, double change_tol_rel = 0.1,
-                                     double lost_rel = 0.2, double silent_rel = 0.01);
+                                     double lost_rel = 0.2, double silent_rel = kSourceSilentRel);
 
 }  // namespace tb::dsp

@@ -34,7 +34,10 @@ struct StreamSpec {
 };
 
 /// in_a, in_b: the period just captured (full-scale units); out: to be filled for playback.
-using DuplexCallback = std::function<void(std::span<const float> in_a, std::span<const float> in_b,
+/// Returns false once it holds every frame it needs: the device may then stop calling it and
+/// idle until stop(). The simulated bench does, so a free-running bench renders exactly the
+/// frames a capture asked for and a test repeats to the sample; a real card keeps running.
+using DuplexCallback = std::function<bool(std::span<const float> in_a, std::span<const float> in_b,
                                           std::span<float> out)>;
 
 class AudioDevice {

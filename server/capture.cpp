@@ -26,22 +26,24 @@ Capture capture_once(AudioDevice& device, const StreamSpec& spec,
                                             16 * spec.period_frames));
   // The first callback sees a period captured before anything was played: skip it, so
   // capture index 0 is the period in which excitation sample 0 was handed to the device.
-  std::size_t played = 0;
+  std::size_t played = 0, pushed = 0;
   bool first = true;
   device.start(spec,
-               [&ring, &out_samples, &played, &first](
+               [&ring, &out_samples, &played, &pushed, &first, total](
                    std::span<const float> in_a, std::span<const float> in_b, std::span<float> out) {
-                 if (!first) {
+                 if (!first && pushed < total) {
                    float frame[2];
                    for (std::size_t i = 0; i < in_a.size(); ++i) {
                      frame[0] = in_a[i];
                      frame[1] = in_b[i];
                      ring.push(frame);
                    }
+                   pushed += in_a.size();
                  }
                  first = false;
                  for (std::size_t i = 0; i < out.size(); ++i, ++played)
                    out[i] = played < out_samples.size() ? out_samples[played] : 0.0f;
+                 return pushed < total;
                });
 
   std::vector<float> chunk(4096);

@@ -492,7 +492,7 @@ void check_generator_level(std::span<const double> a, std::size_t begin, std::si
   };
   if (s.lost) {
     throw Error("signal.lost",
-                s.median_rms_fs < 0.01 * played_rms_fs
+                s.median_rms_fs < dsp::kSourceSilentRel * played_rms_fs
                     ? "no test signal reached input 1 (node A) while the tone played"
                     : "the test signal at input 1 (node A) dropped out " + at_s(s.worst_block) +
                           " s into the capture",

@@ -293,8 +293,10 @@ void SimulatedCard::start(const StreamSpec& spec, DuplexCallback callback) {
     const auto period = std::chrono::duration<double>(static_cast<double>(spec.period_frames) /
                                                       spec.sample_rate_hz);
     auto next = std::chrono::steady_clock::now();
+    // The callback's "enough" ends the rendering: a free-running bench then renders
+    // exactly the frames asked for, and its noise and lead draws repeat from run to run.
     while (!stop_requested_.load()) {
-      cb(a, b, out);
+      if (!cb(a, b, out)) return;  // idle, still running, until stop()
       render(out, a, b);
       if (config_.real_time) {
         next += std::chrono::duration_cast<std::chrono::steady_clock::duration>(period);

@@ -394,7 +394,9 @@ Speed render_speed(double fs, const Options& opt) {
   const tb::StreamSpec spec{.sample_rate_hz = fs, .period_frames = 256};
   if (fs != 48000) {
     // The bench is built at 48 kHz; starting a stream at another rate rebuilds it there.
-    sim.start(spec, [](std::span<const float>, std::span<const float>, std::span<float>) {});
+    sim.start(spec, [](std::span<const float>, std::span<const float>, std::span<float>) {
+      return true;
+    });
     sim.stop();
   }
   std::vector<float> out(spec.period_frames), a(spec.period_frames), b(spec.period_frames);

@@ -52,7 +52,7 @@ class CountingDevice final : public tb::AudioDevice {
     inner_.start(
         spec, [this, cb](std::span<const float> a, std::span<const float> b, std::span<float> out) {
           frames_ += out.size();
-          cb(a, b, out);
+          return cb(a, b, out);
         });
   }
   void stop() override { inner_.stop(); }

