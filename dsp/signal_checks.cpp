@@ -111,6 +111,18 @@ double component_at(std::span<const double> x, double sample_rate_hz, double mai
   return 2 * std::abs(acc) / static_cast<double>(m);
 }
 
+double tone_distortion(std::span<const double> x, double sample_rate_hz, double freq_hz,
+                       int max_harmonic) {
+  const double fundamental = component_at(x, sample_rate_hz, freq_hz, freq_hz);
+  if (!(fundamental > 0)) return 0;
+  double sum = 0;
+  for (int k = 2; k <= max_harmonic && k * freq_hz < 0.45 * sample_rate_hz; ++k) {
+    const double a = component_at(x, sample_rate_hz, freq_hz, k * freq_hz);
+    sum += a * a;
+  }
+  return std::sqrt(sum) / fundamental;
+}
+
 double hum_on_tone_rel(double freq_hz, double mains_hz, double hum_a_fs, double hum_b_fs,
                        double level_a_fs, double level_b_fs, std::complex<double> ratio) {
   if (!(mains_hz > 0) || !(level_a_fs > 0) || !(level_b_fs > 0)) return 0;

@@ -63,6 +63,14 @@ Hum measure_hum(std::span<const double> x, double sample_rate_hz, double mains_h
 double component_at(std::span<const double> x, double sample_rate_hz, double mains_hz,
                     double freq_hz);
 
+/// Total harmonic distortion of a steady tone at freq_hz in x: the rms of its harmonics 2 to
+/// max_harmonic (those below 0.45 fs) over the fundamental's, each found by component_at over
+/// whole periods of the tone, so the harmonics fall on each other's nulls. 0 for a capture
+/// shorter than one period or with no fundamental. freq_hz, sample_rate_hz > 0.
+/// Example: sin(w t) + 0.01 sin(3 w t) gives 0.01.
+double tone_distortion(std::span<const double> x, double sample_rate_hz, double freq_hz,
+                       int max_harmonic = 5);
+
 /// The budget terms for mains hum on the test tone itself: a tone on a harmonic of the mains
 /// (within 1e-6 of n * mains_hz) cannot be told from the hum there, which adds a fixed error
 /// that the block spread does not show. With hum amplitudes hum_a, hum_b at that frequency

@@ -48,6 +48,8 @@ std::string_view level_limit_name(LevelLimit l) {
       return "part_voltage";
     case LevelLimit::clipping:
       return "clipping";
+    case LevelLimit::drive_distortion:
+      return "drive_distortion";
   }
   return "requested";
 }

@@ -26,11 +26,12 @@ std::optional<double> part_voltage_cap_vrms(PartClass c);
 
 /// What set the output level of a reading.
 enum class LevelLimit {
-  requested,       ///< the level asked for
-  input_headroom,  ///< the larger input at the target (-6 dBFS peak)
-  level_cap,       ///< the configured output cap (level_cap_fs)
-  part_voltage,    ///< the part class's voltage cap
-  clipping,        ///< the inputs clipped and the tone was played again lower
+  requested,         ///< the level asked for
+  input_headroom,    ///< the larger input at the target (-6 dBFS peak)
+  level_cap,         ///< the configured output cap (level_cap_fs)
+  part_voltage,      ///< the part class's voltage cap
+  clipping,          ///< the inputs clipped and the tone was played again lower
+  drive_distortion,  ///< the card's output distorted into the load; played again lower
 };
 
 std::string_view level_limit_name(LevelLimit l);  ///< "requested", "input_headroom", ...

@@ -34,7 +34,9 @@ const std::array<cli::OptionSpec, 20> kOptions{{
     {"level", "FRACTION", "output level as a fraction of full scale, default 0.5"},
     {"duration", "SECONDS", "analysed tone length, default 1"},
     {"rate", "HZ", "sample rate, default 48000"},
-    {"device", "ID", "audio device, default simulated (the only one in this version)"},
+    {"device", "ID",
+     "audio device: simulated only; real cards are measured through tonebridged "
+     "(docs/hardware.md)"},
     {"seed", "N", "seed of the simulated card's hidden faults, default 1"},
     {"no-channel-match", "", "skip the channel-match step (both inputs on node A)"},
     {"no-open-short", "", "skip the open/short fixture compensation"},
@@ -98,7 +100,8 @@ int run_measure(std::span<const std::string> argv, std::ostream& out, std::ostre
     }
     if (auto dev = args.get("device"); dev && *dev != "simulated") {
       throw Error("device.unknown", "no audio device '" + *dev + "'",
-                  "this version has only the simulated bench: leave out --device");
+                  "this command runs the simulated bench only; measure a real card through "
+                  "tonebridged (device setting, docs/hardware.md) or leave out --device");
     }
     MeasureRequest req;
     req.stream.sample_rate_hz =
@@ -176,10 +179,8 @@ int run_measure(std::span<const std::string> argv, std::ostream& out, std::ostre
         << (result.channel_match ? "measured" : "not applied") << ", open/short "
         << (result.fixture_compensated ? "applied" : "not applied") << "\n\n"
         << format_reading(r);
-    if (result.level_fs < req.level_fs) {
-      out << "    note: the inputs clipped at level " << req.level_fs << "; measured at "
-          << result.level_fs << " of full scale\n";
-    }
+    for (const auto& n : result.notices)
+      out << "    note: " << n.message << (n.hint.empty() ? "" : "; " + n.hint) << "\n";
     if (result.advice.better_than_present) out << "    advice: " << result.advice.text << "\n";
     if (truth) {
       out << "    truth (teaching aid, not part of the measurement): "

@@ -178,3 +178,17 @@ TEST_CASE("under two blocks the source steadiness check judges nothing", "[signa
   CHECK_FALSE(s.changed);
   CHECK_THROWS_AS(check_source_steady(std::vector<double>(10, 0.0), 0, 0.2), std::invalid_argument);
 }
+
+TEST_CASE("tone distortion reads a known third harmonic and a clean tone", "[signal_checks]") {
+  // THD as the rms of the harmonics over the fundamental (IEC 60268-3 ratio form, from memory).
+  const double fs = 48000, f = 1000;
+  std::vector<double> x(9600), clean(9600);
+  for (std::size_t i = 0; i < x.size(); ++i) {
+    const double w = 2 * std::numbers::pi * f * static_cast<double>(i) / fs;
+    clean[i] = 0.5 * std::sin(w);
+    x[i] = 0.5 * std::sin(w) + 0.005 * std::sin(3 * w + 0.4) + 0.002 * std::sin(2 * w);
+  }
+  CHECK(tone_distortion(x, fs, f) == Approx(std::hypot(0.01, 0.004)).epsilon(1e-6));
+  CHECK(tone_distortion(clean, fs, f) < 1e-9);
+  CHECK(tone_distortion(std::vector<double>(10, 0.0), fs, f) == 0);
+}

@@ -5,7 +5,10 @@
 #include <algorithm>
 #include <catch2/catch.hpp>
 #include <cmath>
+#include <numbers>
 
+#include "dsp/jig_model.hpp"
+#include "server/bench_procedure.hpp"
 #include "server/error.hpp"
 #include "server/simulated_card.hpp"
 
@@ -161,6 +164,33 @@ TEST_CASE("a clipped capture is retaken lower and says so", "[measurement]") {
   CHECK(r.level_fs < 1.0);
   CHECK(r.level_limited_by == dsp::LevelLimit::clipping);
   CHECK(find(r, "level.lowered") != nullptr);
+}
+
+TEST_CASE("an output that distorts into a low load is retaken lower and reads true",
+          "[measurement]") {
+  // A 1 ohm coil on Rref 1 ohm at half of full scale: the seed-1 card's output runs into its
+  // current limit (30-120 mA, card_faults.cpp) and node A carries tens of per cent THD.
+  // Truth: the coil's reactance from an AC solve of its netlist at the bench's frequency.
+  const dsp::Netlist coil = {{{dsp::ElementKind::inductor, "L1", "p", "n", 159.155e-6}}};
+  const auto cfg = bench(dsp::draw_card_faults({.seed = 1}), coil, 1);
+  SimulatedCard card(cfg);
+  auto req = request(1000, 1);
+  req.level_fs = 0.5;
+  // With the channel match and open/short (leads of 15 mohm per side against 1 ohm).
+  const auto r = measure_on_bench(card, cfg.jig, coil, req, {});
+  CHECK(r.level_fs < 0.5);
+  CHECK(r.level_limited_by == dsp::LevelLimit::drive_distortion);
+  const auto* lowered = find(r, "level.lowered");
+  REQUIRE(lowered != nullptr);
+  CHECK(lowered->message.find("output distorted") != std::string::npos);
+  CHECK(find(r, "signal.drive_distorted") == nullptr);
+  const auto truth = dsp::part_impedance(
+      coil, SimulatedCard::circuit_frequency_hz(r.reading.freq_hz, req.stream.sample_rate_hz));
+  // Before the retake |Z| read 2.8 % and theta 0.57 degrees off (tonebridge-sim-bench).
+  CHECK(std::abs(r.reading.values.mag_ohm - std::abs(truth)) <= r.reading.u_mag.expanded);
+  const double dtheta = r.reading.values.theta_deg - std::arg(truth) * 180 / std::numbers::pi;
+  INFO("theta error " << dtheta << " U " << r.reading.u_theta_deg.expanded);
+  CHECK(std::abs(dtheta) <= r.reading.u_theta_deg.expanded);
 }
 
 TEST_CASE("a weak node B is flagged and a better Rref advised", "[measurement]") {
