@@ -68,6 +68,9 @@ nlohmann::json error_body(const std::string& id, const std::string& message,
 int status_for(const std::string& id) {
   if (ends(id, ".not_found")) return 404;
   if (ends(id, ".conflict") || ends(id, ".busy")) return 409;
+  // A task the technician cancelled, or a prompt nobody answered in time.
+  if (id == "task.cancelled") return 409;
+  if (id == "task.no_answer") return 408;
   if (id == "request.too_large") return 413;
   if (id == "engine.queue_full" || id == "events.too_many_clients") return 429;
   // The bench, not the request: the card, its samples or the generator signal failed.
@@ -76,10 +79,13 @@ int status_for(const std::string& id) {
     return 503;
   // The request was fine but the signal could not be read (clipping, no tone, not settled):
   // the technician's to fix at the jig, not a bug of the service.
-  if (starts(id, "analysis.") || starts(id, "recording.") || starts(id, "signal.")) return 422;
+  if (starts(id, "analysis.") || starts(id, "recording.") || starts(id, "signal.") ||
+      starts(id, "calibration."))
+    return 422;
   if (starts(id, "request.") || starts(id, "config.") || starts(id, "part.") ||
-      starts(id, "measure.") || starts(id, "circuit.") || starts(id, "check.") ||
-      starts(id, "marking.") || starts(id, "fit."))
+      starts(id, "file.bad") || id == "file.empty" || id == "file.mono" || starts(id, "measure.") ||
+      starts(id, "circuit.") || starts(id, "check.") || starts(id, "marking.") ||
+      starts(id, "fit."))
     return 400;
   return 500;
 }
