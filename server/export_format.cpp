@@ -1,8 +1,8 @@
 #include "server/export_format.hpp"
 
 #include <algorithm>
-
 #include <sstream>
+#include <string_view>
 
 namespace tb {
 
@@ -21,14 +21,7 @@ nlohmann::json value_of(const nlohmann::json& reading, const std::string& name) 
 
 std::string cell(const nlohmann::json& v) {
   if (v.is_null()) return "";
-  if (v.is_string()) {
-    const auto s = v.get<std::string>();
-    if (s.find_first_of(",\"\n\r") == std::string::npos) return s;
-    std::string q = "\"";
-    for (char c : s)
-      q += c == '"' ? std::string("\"\"") : std::string(1, c);
-    return q + "\"";
-  }
+  if (v.is_string()) return csv_field(v.get<std::string>());
   if (v.is_number_float()) {
     std::ostringstream o;
     o.precision(10);
@@ -80,6 +73,18 @@ nlohmann::json sweep_columns(const std::vector<SweepPoint>& stored) {
                                                 : nlohmann::json(err->value("id", "")));
   }
   return cols;
+}
+
+std::string csv_field(const std::string& text) {
+  const std::string guarded =
+      !text.empty() && std::string_view("=+-@\t\r").find(text[0]) != std::string_view::npos
+          ? "'" + text
+          : text;
+  if (guarded.find_first_of(",\"\r\n") == std::string::npos) return guarded;
+  std::string q = "\"";
+  for (char c : guarded)
+    q += c == '"' ? std::string("\"\"") : std::string(1, c);
+  return q + "\"";
 }
 
 std::string sweep_csv(const SweepRecord& sweep, const std::vector<SweepPoint>& points) {

@@ -12,6 +12,13 @@
 
 namespace tb {
 
+/// One CSV field after RFC 4180 (quoted only when it must be). Text that a spreadsheet would
+/// take for a formula (starting with =, +, -, @, a tab or a carriage return: a designator or
+/// a note typed as "=HYPERLINK(...)") gets a leading apostrophe, so opening a report runs
+/// nothing (OWASP, "CSV Injection", from memory).
+/// Example: csv_field("=1+1") == "'=1+1"; csv_field("a,b") == "\"a,b\"".
+std::string csv_field(const std::string& text);
+
 /// The quantities every export carries, in this order: name in the reading's JSON.
 const std::vector<std::string>& export_quantities();
 

@@ -206,14 +206,6 @@ std::string html_escape(const std::string& text) {
   return out;
 }
 
-std::string csv_field(const std::string& text) {
-  if (text.find_first_of(",\"\r\n") == std::string::npos) return text;
-  std::string q = "\"";
-  for (char c : text)
-    q += c == '"' ? std::string("\"\"") : std::string(1, c);
-  return q + "\"";
-}
-
 PrimaryValue primary_value(const json& b) {
   const std::string kind = b.is_object() ? b.value("kind", "") : "";
   PrimaryValue p;

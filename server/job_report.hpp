@@ -15,6 +15,7 @@
 
 #include <nlohmann/json.hpp>
 
+#include "server/export_format.hpp"
 #include "server/store.hpp"
 
 namespace tb {
@@ -69,8 +70,5 @@ std::string job_report_html(const JobReport& report);
 
 /// &, <, >, " and ' as entities.
 std::string html_escape(const std::string& text);
-
-/// One CSV field after RFC 4180 (quoted only when it must be).
-std::string csv_field(const std::string& text);
 
 }  // namespace tb

@@ -128,6 +128,17 @@ TEST_CASE("job_report: csv_field quotes only what RFC 4180 needs quoted", "[job_
   CHECK(tb::csv_field("") == "");
 }
 
+TEST_CASE("job_report: csv_field keeps typed text from running as a spreadsheet formula",
+          "[job_report]") {
+  // OWASP "CSV Injection" (from memory): =, +, -, @, tab and CR start a formula.
+  CHECK(tb::csv_field("=HYPERLINK(\"http://x\")") == "\"'=HYPERLINK(\"\"http://x\"\")\"");
+  CHECK(tb::csv_field("+1") == "'+1");
+  CHECK(tb::csv_field("-2") == "'-2");
+  CHECK(tb::csv_field("@SUM(A1)") == "'@SUM(A1)");
+  CHECK(tb::csv_field("\tx") == "'\tx");
+  CHECK(tb::csv_field("C4=old") == "C4=old");  // only the first character counts
+}
+
 TEST_CASE("job_report: the CSV has a header row and one row per part and reading", "[job_report]") {
   const auto csv = tb::job_report_csv(sample_report());
   const auto rows = lines(csv, "\r\n");
