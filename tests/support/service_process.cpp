@@ -11,6 +11,7 @@
 
 #include <chrono>
 #include <fstream>
+#include <iostream>
 #include <regex>
 #include <sstream>
 #include <stdexcept>
@@ -36,7 +37,13 @@ bool has_flag(const std::vector<std::string>& args, const std::string& name) {
 }  // namespace
 
 nlohmann::json HttpResult::json() const {
-  return nlohmann::json::parse(body);
+  try {
+    return nlohmann::json::parse(body);
+  } catch (const nlohmann::json::parse_error&) {
+    throw std::runtime_error("not a JSON answer: HTTP status " + std::to_string(status) +
+                             (failure.empty() ? "" : " (" + failure + ")") + ", body '" +
+                             body.substr(0, 200) + "'");
+  }
 }
 
 bool eventually(const std::function<bool()>& ready, double timeout_s) {
@@ -99,8 +106,18 @@ std::string ServiceProcess::errors() const {
 
 int ServiceProcess::stop() {
   if (!pid_) return -1;
-  ::kill(pid_, SIGTERM);
   int status = 0;
+  if (waitpid(pid_, &status, WNOHANG) == pid_) {
+    // It ended before the test asked: say how, and what it wrote, for the test's log.
+    std::cerr << "tonebridged (pid " << pid_ << ") had already ended ("
+              << (WIFEXITED(status) ? "exit " + std::to_string(WEXITSTATUS(status))
+                                    : "signal " + std::to_string(WTERMSIG(status)))
+              << "); its stderr:\n"
+              << errors() << "\n";
+    pid_ = 0;
+    return WIFEXITED(status) ? WEXITSTATUS(status) : 128 + WTERMSIG(status);
+  }
+  ::kill(pid_, SIGTERM);
   const bool ended = eventually([&] { return waitpid(pid_, &status, WNOHANG) == pid_; }, 20);
   if (!ended) {
     ::kill(pid_, SIGKILL);
@@ -132,7 +149,10 @@ HttpResult ServiceProcess::request(const std::string& method, const std::string&
            : method == "PUT"    ? client.Put(path, h, body, "application/json")
                                 : client.Post(path, h, body, "application/json");
   HttpResult out;
-  if (!r) return out;
+  if (!r) {
+    out.failure = httplib::to_string(r.error());
+    return out;
+  }
   out.status = r->status;
   out.body = r->body;
   for (const auto& [k, v] : r->headers)

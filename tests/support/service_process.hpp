@@ -18,7 +18,10 @@ struct HttpResult {
   int status = 0;  ///< 0 when the request could not be made
   std::string body;
   std::map<std::string, std::string> headers;
-  nlohmann::json json() const;  ///< the body parsed (throws if it is not JSON)
+  std::string failure;  ///< why the request could not be made (cpp-httplib's words)
+  /// The body parsed; throws, naming the status, the failure and the start of the body, if
+  /// it is not JSON.
+  nlohmann::json json() const;
 };
 
 class ServiceProcess {
