@@ -151,6 +151,14 @@ nlohmann::json reading_now(const ServiceProcess& svc) {
   }
 }
 
+// The JSON answer to a GET, or null while the service gives none (a poll then asks again;
+// a service that died fails the poll's timeout, and ServiceProcess prints its stderr).
+nlohmann::json poll(const ServiceProcess& svc, const std::string& path) {
+  const auto r = svc.get(path);
+  if (r.status != 200) return nullptr;
+  return r.json();
+}
+
 }  // namespace
 
 TEST_CASE("a reading through PortAudio and JACK recovers the emulated part", "[jack]") {
@@ -185,15 +193,21 @@ TEST_CASE("the emulator killed mid-sweep fails the sweep and the service lives o
   int id = 0;
   REQUIRE(eventually(
       [&] {
-        const auto list = svc.get("/api/v1/sweeps").json().at("sweeps");
-        if (list.empty()) return false;
+        const auto answer = poll(svc, "/api/v1/sweeps");
+        if (answer.is_null() || answer.at("sweeps").empty()) return false;
+        const auto& list = answer.at("sweeps");
         id = list.at(0).at("id").get<int>();
         return list.at(0).at("points_saved").get<int>() >= 2;
       },
       120));
   end_process(bench.emulator, SIGKILL);  // the "card" goes away with no goodbye
   const std::string path = "/api/v1/sweeps/" + std::to_string(id);
-  REQUIRE(eventually([&] { return svc.get(path).json().at("status") != "running"; }, 60));
+  REQUIRE(eventually(
+      [&] {
+        const auto t = poll(svc, path);
+        return !t.is_null() && t.at("status") != "running";
+      },
+      60));
   const auto s = svc.get(path).json();
   INFO(s.dump());
   CHECK(s.at("status") == "failed");
@@ -221,10 +235,20 @@ TEST_CASE("node A falling silent mid-reading fails it as signal.lost", "[jack]")
   const std::string path = "/api/v1/tasks/" + std::to_string(task);
   // Whenever the lead comes off before the 3 s capture ends, node A is silent for at least
   // part of it: a dropout, or no signal at all.
-  REQUIRE(eventually([&] { return svc.get(path).json().at("status") == "running"; }, 30));
+  REQUIRE(eventually(
+      [&] {
+        const auto t = poll(svc, path);
+        return !t.is_null() && t.at("status") == "running";
+      },
+      30));
   std::this_thread::sleep_for(std::chrono::milliseconds(500));
   kill(bench.emulator, SIGUSR1);
-  REQUIRE(eventually([&] { return svc.get(path).json().at("status") != "running"; }, 60));
+  REQUIRE(eventually(
+      [&] {
+        const auto t = poll(svc, path);
+        return !t.is_null() && t.at("status") != "running";
+      },
+      60));
   auto t = svc.get(path).json();
   for (int attempt = 0; attempt < 2 && t.at("error").value("id", "") == "capture.xrun"; ++attempt) {
     // Refused for xruns (see reading_now) before node A went: ask again; node A stays silent.
