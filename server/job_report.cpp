@@ -3,6 +3,7 @@
 #include <cmath>
 #include <sstream>
 
+#include "server/export_format.hpp"
 #include "server/reading_text.hpp"
 
 namespace tb {

@@ -15,7 +15,6 @@
 
 #include <nlohmann/json.hpp>
 
-#include "server/export_format.hpp"
 #include "server/store.hpp"
 
 namespace tb {

@@ -159,6 +159,12 @@ nlohmann::json poll(const ServiceProcess& svc, const std::string& path) {
   return r.json();
 }
 
+// Whether the task or sweep at `path` has stopped running (false while no answer comes).
+bool has_ended(const ServiceProcess& svc, const std::string& path) {
+  const auto t = poll(svc, path);
+  return !t.is_null() && t.at("status") != "running";
+}
+
 }  // namespace
 
 TEST_CASE("a reading through PortAudio and JACK recovers the emulated part", "[jack]") {
@@ -202,12 +208,7 @@ TEST_CASE("the emulator killed mid-sweep fails the sweep and the service lives o
       120));
   end_process(bench.emulator, SIGKILL);  // the "card" goes away with no goodbye
   const std::string path = "/api/v1/sweeps/" + std::to_string(id);
-  REQUIRE(eventually(
-      [&] {
-        const auto t = poll(svc, path);
-        return !t.is_null() && t.at("status") != "running";
-      },
-      60));
+  REQUIRE(eventually([&] { return has_ended(svc, path); }, 60));
   const auto s = svc.get(path).json();
   INFO(s.dump());
   CHECK(s.at("status") == "failed");
@@ -243,12 +244,7 @@ TEST_CASE("node A falling silent mid-reading fails it as signal.lost", "[jack]")
       30));
   std::this_thread::sleep_for(std::chrono::milliseconds(500));
   kill(bench.emulator, SIGUSR1);
-  REQUIRE(eventually(
-      [&] {
-        const auto t = poll(svc, path);
-        return !t.is_null() && t.at("status") != "running";
-      },
-      60));
+  REQUIRE(eventually([&] { return has_ended(svc, path); }, 60));
   auto t = svc.get(path).json();
   for (int attempt = 0; attempt < 2 && t.at("error").value("id", "") == "capture.xrun"; ++attempt) {
     // Refused for xruns (see reading_now) before node A went: ask again; node A stays silent.

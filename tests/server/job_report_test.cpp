@@ -7,6 +7,8 @@
 #include <string>
 #include <vector>
 
+#include "server/export_format.hpp"
+
 using nlohmann::json;
 using tb::PartRole;
 
